@@ -1,0 +1,21 @@
+"""orbitalrender: probability-enclosing surfaces, phase-coloured figures and printable meshes
+of hydrogen-like one-electron states.
+
+The pipeline is state -> lattice -> surface -> picture or mesh; each step is a
+subpackage and its main functions are re-exported here.
+"""
+
+__version__ = "0.1.0"
+
+from .lattice.grid import Box, Lattice
+from .lattice.sampler import default_box, sample
+from .state.model import State, Term, eigenstate, energy_hartree, real_orbital, superpose
+from .state.notation import parse_state
+from .surface.model import Surface
+
+__all__ = [
+    "__version__",
+    "State", "Term", "eigenstate", "real_orbital", "superpose", "energy_hartree", "parse_state",
+    "Box", "Lattice", "default_box", "sample",
+    "Surface",
+]

@@ -1,0 +1,67 @@
+"""Command line entry point: parses the subcommand and turns errors into exit statuses.
+
+Exit status 0 on success, 2 for a mistake in the user's input (one line on
+stderr), 1 for a fault inside the tool (a short message; ``--debug`` shows the
+traceback).
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import sys
+import traceback
+
+from .. import __version__
+from ..errors import UserInputError
+from ..lattice.memory import MemoryLimitError
+
+__all__ = ["main", "build_parser", "COMMANDS"]
+
+#: Subcommand name -> module in this package that defines ``register(subparsers)``.
+COMMANDS: dict[str, str] = {
+    "describe": "describe",
+}
+
+_USER_ERRORS = (UserInputError, ValueError, MemoryLimitError, FileNotFoundError,
+                PermissionError, IsADirectoryError, NotADirectoryError)
+
+
+class _Parser(argparse.ArgumentParser):
+    def error(self, message: str):  # one line, exit status 2, as argparse does, with the program name
+        self.exit(2, f"{self.prog}: error: {message}\n")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = _Parser(prog="orbitalrender",
+                     description="Quantitative figures and printable meshes of hydrogen-like states.")
+    parser.add_argument("--version", action="version", version=f"orbitalrender {__version__}")
+    parser.add_argument("--debug", action="store_true", help="show the traceback of an internal fault")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+    sub.required = True
+    for module in COMMANDS.values():
+        importlib.import_module(f"{__name__}.{module}").register(sub)
+    return parser
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Run the command line; returns the exit status."""
+    argv = sys.argv[1:] if argv is None else argv
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    try:
+        return int(args.run(args) or 0)
+    except _USER_ERRORS as exc:
+        print(f"orbitalrender {args.command}: error: {exc}", file=sys.stderr)
+        if args.debug:
+            traceback.print_exc()
+        return 2
+    except KeyboardInterrupt:
+        print("orbitalrender: interrupted", file=sys.stderr)
+        return 130
+    except Exception as exc:  # noqa: BLE001 - the last line of defence of the command line
+        print(f"orbitalrender {args.command}: internal error: {type(exc).__name__}: {exc} "
+              "(run with --debug for the traceback)", file=sys.stderr)
+        if args.debug:
+            traceback.print_exc()
+        return 1

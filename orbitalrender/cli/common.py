@@ -1,0 +1,42 @@
+"""Options shared by several subcommands: the STATE and its physics, and the lattice."""
+
+from __future__ import annotations
+
+import argparse
+
+from ..state.model import State
+from ..state.notation import parse_state
+from ..state.units import femtoseconds_to_au, nucleus_reduced_mass_ratio
+
+__all__ = ["add_state_arguments", "state_from_args", "add_lattice_arguments"]
+
+
+def add_state_arguments(parser: argparse.ArgumentParser, many: bool = False) -> None:
+    """STATE (see the README for the notation), --Z, --nucleus and --time."""
+    parser.add_argument("state", nargs="+" if many else None, metavar="STATE",
+                        help="e.g. 3,2,-1 or 3dz2 or '1s@(0,0,-0.7) + 1s@(0,0,0.7)'")
+    parser.add_argument("--Z", type=float, default=1.0, help="nuclear charge (default 1)")
+    parser.add_argument("--nucleus", default="infinite",
+                        help="infinite (default), hydrogen, deuterium, positronium, muonic-hydrogen, "
+                             "or a nucleus-to-electron mass ratio")
+    parser.add_argument("--time", type=float, default=0.0,
+                        help="time at which a superposition is drawn (default 0)")
+    parser.add_argument("--time-unit", choices=("au", "fs"), default="au",
+                        help="unit of --time: atomic units (hbar/E_h) or femtoseconds")
+
+
+def state_from_args(args: argparse.Namespace, text: str | None = None) -> State:
+    """The State that the parsed options describe (`text` overrides args.state)."""
+    t = args.time if args.time_unit == "au" else femtoseconds_to_au(args.time)
+    return parse_state(args.state if text is None else text, Z=args.Z,
+                       reduced_mass_ratio=nucleus_reduced_mass_ratio(args.nucleus), time_au=t)
+
+
+def add_lattice_arguments(parser: argparse.ArgumentParser, default_resolution: int = 128) -> None:
+    """--resolution, --box (half-width in a0) and --precision."""
+    parser.add_argument("--resolution", type=int, default=default_resolution,
+                        help=f"lattice points per axis (default {default_resolution})")
+    parser.add_argument("--box", type=float, default=None, metavar="HALF_WIDTH_A0",
+                        help="half-width of the lattice cube in a0 (default: from the state)")
+    parser.add_argument("--precision", choices=("single", "double"), default="single",
+                        help="complex64 or complex128 lattice values (default single)")
