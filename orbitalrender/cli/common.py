@@ -11,9 +11,14 @@ from ..state.units import femtoseconds_to_au, nucleus_reduced_mass_ratio
 __all__ = ["add_state_arguments", "state_from_args", "add_lattice_arguments"]
 
 
-def add_state_arguments(parser: argparse.ArgumentParser, many: bool = False) -> None:
-    """STATE (see the README for the notation), --Z, --nucleus and --time."""
-    parser.add_argument("state", nargs="+" if many else None, metavar="STATE",
+def add_state_arguments(parser: argparse.ArgumentParser, many: bool = False,
+                        optional: bool = False) -> None:
+    """STATE (see the README for the notation), --Z, --nucleus and --time.
+
+    With `optional`, STATE may be left out (for a command that can read a field instead).
+    """
+    nargs = ("*" if optional else "+") if many else ("?" if optional else None)
+    parser.add_argument("state", nargs=nargs, metavar="STATE",
                         help="e.g. 3,2,-1 or 3dz2 or '1s@(0,0,-0.7) + 1s@(0,0,0.7)'")
     parser.add_argument("--Z", type=float, default=1.0, help="nuclear charge (default 1)")
     parser.add_argument("--nucleus", default="infinite",

@@ -7,7 +7,7 @@ import os
 import numpy as np
 
 __all__ = ["MemoryLimitError", "available_bytes", "sampling_bytes", "largest_resolution",
-           "require_lattice_memory"]
+           "require_lattice_memory", "require_bytes"]
 
 # Bytes per lattice point that the sampler needs on top of the output array:
 # the octant (1/8 of the output) plus the chunk temporaries, which are bounded
@@ -68,3 +68,12 @@ def require_lattice_memory(resolution: int, dtype=np.complex64, chunk_bytes: int
         raise MemoryLimitError(
             f"a {resolution}^3 lattice needs about {needed / 2**30:.1f} GiB but only "
             f"{budget / 2**30:.1f} GiB can be used; the largest resolution that fits is {largest}")
+
+
+def require_bytes(needed_bytes: int, what: str) -> None:
+    """Raise MemoryLimitError, naming `what` and the estimate, if `needed_bytes` would not fit now."""
+    budget = int(available_bytes() * _SAFETY)
+    if needed_bytes > budget:
+        raise MemoryLimitError(
+            f"{what} needs about {needed_bytes / 2**30:.1f} GiB but only "
+            f"{budget / 2**30:.1f} GiB can be used")

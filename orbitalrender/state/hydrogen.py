@@ -94,7 +94,7 @@ def radial_function(n: int, l: int, r_a0: np.ndarray, Z: float = 1.0,
 
     Examples
     --------
-    >>> float(radial_function(1, 0, 0.0))  # R_10(0) = 2 a0^-3/2
+    >>> round(float(radial_function(1, 0, 0.0)), 12)  # R_10(0) = 2 a0^-3/2
     2.0
     >>> round(float(radial_function(2, 0, 2.0)), 12)  # the 2s node sits at r = 2 a0
     0.0
