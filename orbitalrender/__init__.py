@@ -9,6 +9,7 @@ __version__ = "0.1.0"
 
 from .lattice.grid import Box, Lattice
 from .lattice.sampler import default_box, sample
+from .picture.output import figure_metadata, save_figure, write_report
 from .state.model import State, Term, eigenstate, energy_hartree, real_orbital, superpose
 from .state.notation import parse_state
 from .surface.model import Surface
@@ -18,4 +19,5 @@ __all__ = [
     "State", "Term", "eigenstate", "real_orbital", "superpose", "energy_hartree", "parse_state",
     "Box", "Lattice", "default_box", "sample",
     "Surface",
+    "figure_metadata", "save_figure", "write_report",
 ]
