@@ -90,7 +90,8 @@ def radial_function(n: int, l: int, r_a0: np.ndarray, Z: float = 1.0,
 
     The prefactor, rho^l and the exponential are combined in logarithms
     (``math.lgamma`` for the factorials), so n = 40 and beyond neither
-    overflows nor underflows before the final product.
+    overflows nor underflows before the final product; where that envelope
+    underflows to zero, R is zero (the Laguerre factor may overflow there).
 
     Examples
     --------
@@ -110,7 +111,10 @@ def radial_function(n: int, l: int, r_a0: np.ndarray, Z: float = 1.0,
     with np.errstate(divide="ignore"):
         log_rho_l = l * np.log(rho) if l > 0 else np.zeros_like(rho)
     envelope = np.exp(log_norm + log_rho_l - 0.5 * rho)
-    return envelope * _laguerre(n - l - 1, 2 * l + 1, rho)
+    # Far out (rho of order 1e9 for n = 40) the polynomial overflows where the envelope
+    # has long underflowed to zero; R is zero there.
+    with np.errstate(over="ignore", invalid="ignore"):
+        return np.where(envelope > 0.0, envelope * _laguerre(n - l - 1, 2 * l + 1, rho), 0.0)
 
 
 def _legendre_q(l: int, m: int, cos_theta: np.ndarray) -> np.ndarray:
