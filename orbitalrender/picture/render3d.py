@@ -1,0 +1,821 @@
+"""Picture step, 3D render: a shaded, phase-coloured image of one or more Surfaces.
+
+The camera projects the mesh, :func:`orbitalrender.picture.raster.rasterize`
+finds the nearest fragment of every (supersampled) pixel, and the shading is
+done per pixel on those buffers:
+
+* **Normals** are interpolated per pixel from the vertex normals (Phong
+  interpolation) and lit with ambient + two diffuse lights + a modest
+  Blinn-Phong highlight.  The lighting multiplies the colour in linear light, so
+  it changes brightness, not hue.
+* **Hue** is the phase of psi.  The unit phasors psi/|psi| of the three
+  vertices are interpolated (never the angles, which would jump where the phase
+  wraps from pi to -pi) and the angle of the result is looked up in
+  :func:`orbitalrender.picture.colormap.phase_to_rgb`.
+* **Antialiasing**: the image is rendered at `supersample` times the size and
+  reduced with a box filter; the alpha channel is the covered fraction.
+* **Cutaway**: fragments in the removed region (an intersection of half-spaces)
+  are dropped.  Where the first fragment left is a back face, the ray has come
+  out of the removed region inside the solid, so the cut plane is drawn there
+  ("capped"), coloured with psi evaluated exactly at that 3D point: nested shells
+  are seen in section.
+* **Translucent outer shells**: components that lie wholly outside another
+  component (farther from the centre than all of it) can be drawn with an
+  opacity; each such component is its own layer (its nearest fragment) and the
+  layers are composited by depth over the opaque ones.
+* **Nodal axis**: a dashed line along z through the centre, depth-tested
+  against the surfaces (hidden where a lobe or ring passes in front of it).
+
+Lighting directions are fixed in the camera frame (key light from the upper
+left in front, a weak fill from the lower right), so every view is lit alike.
+The specular term uses a viewer at infinity also for the perspective camera.
+
+References
+----------
+.. [1] B. T. Phong, "Illumination for computer generated pictures",
+       Commun. ACM 18, 311-317 (1975).
+.. [2] J. F. Blinn, "Models of light reflection for computer synthesized
+       pictures", SIGGRAPH '77, 192-198 (1977).
+.. [3] IEC 61966-2-1:1999, the sRGB transfer function.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass, replace
+from functools import cache
+
+import numba
+import numpy as np
+
+from ..surface.model import Surface
+from .colormap import PHASE_SCHEMES, phase_to_rgb, real_rotation
+from .raster import Fragments, rasterize
+
+__all__ = [
+    "PROJECTIONS",
+    "Camera",
+    "Lighting",
+    "Cutaway",
+    "Render",
+    "parse_cutaway",
+    "frame_camera",
+    "render_surfaces",
+    "nodal_axis_centre",
+]
+
+PROJECTIONS = ("orthographic", "perspective")
+#: zoom 1 leaves this much room around the surface: its extent times 1.08 fills the shorter side.
+_FIT_MARGIN = 1.08
+#: The nodal axis is drawn this fraction of the surface's z-extent past each end.
+_AXIS_OVERHANG = 0.12
+#: Shading works on this many pixels at a time, which bounds its temporaries (~0.3 GiB).
+_CHUNK_PIXELS = 1 << 20
+_ZOOM_RANGE = (0.05, 50.0)
+_FOV_RANGE_DEG = (1.0, 120.0)
+
+
+@dataclass(frozen=True)
+class Camera:
+    """Where the picture is seen from.
+
+    Attributes
+    ----------
+    azimuth_deg : float
+        Angle of the viewing direction about z, from +x toward +y.
+    elevation_deg : float
+        Angle above the xy plane, in [-90, 90]; 90 looks down the z axis.
+    zoom : float
+        1 fits the whole surface with a small margin; 2 shows it twice as large.
+    projection : {"orthographic", "perspective"}
+    target_a0 : tuple of float or None
+        Point at the centre of the image; None: the centre of the surfaces' bounding box.
+    half_extent_a0 : float or None
+        Half of the shorter image side, in a0, at zoom 1 (at the target's depth for
+        perspective); None: fitted to the surfaces.  Give the same value to several
+        renders to draw them at one scale.
+    distance_a0 : float or None
+        Perspective only: distance of the eye from the target; None: the surfaces'
+        bounding sphere just fills the field of view.
+    field_of_view_deg : float
+        Perspective only: the angle the bounding sphere subtends when fitted.
+    """
+
+    azimuth_deg: float = 35.0
+    elevation_deg: float = 20.0
+    zoom: float = 1.0
+    projection: str = "orthographic"
+    target_a0: tuple[float, float, float] | None = None
+    half_extent_a0: float | None = None
+    distance_a0: float | None = None
+    field_of_view_deg: float = 30.0
+
+    def __post_init__(self) -> None:
+        if self.projection not in PROJECTIONS:
+            raise ValueError(f"unknown projection {self.projection!r}: use orthographic or perspective")
+        if not math.isfinite(self.azimuth_deg):
+            raise ValueError(f"the azimuth must be a finite angle, got {self.azimuth_deg}")
+        if not -90.0 <= self.elevation_deg <= 90.0:
+            raise ValueError(f"the elevation must lie in [-90, 90] degrees, got {self.elevation_deg}")
+        if not _ZOOM_RANGE[0] <= self.zoom <= _ZOOM_RANGE[1]:
+            raise ValueError(f"the zoom must lie in [{_ZOOM_RANGE[0]}, {_ZOOM_RANGE[1]}], got {self.zoom}")
+        if not _FOV_RANGE_DEG[0] <= self.field_of_view_deg <= _FOV_RANGE_DEG[1]:
+            raise ValueError(f"the field of view must lie in [{_FOV_RANGE_DEG[0]}, {_FOV_RANGE_DEG[1]}] "
+                             f"degrees, got {self.field_of_view_deg}")
+        for name in ("half_extent_a0", "distance_a0"):
+            v = getattr(self, name)
+            if v is not None and not (v > 0 and math.isfinite(v)):
+                raise ValueError(f"{name} must be positive, got {v}")
+        if self.target_a0 is not None:
+            object.__setattr__(self, "target_a0", tuple(float(c) for c in self.target_a0))
+
+    def basis(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """Unit vectors (right, up, toward the eye) of the image, in world coordinates.
+
+        Examples
+        --------
+        >>> r, u, d = Camera(azimuth_deg=0, elevation_deg=0).basis()
+        >>> (d.round(12) + 0.0).tolist(), (u.round(12) + 0.0).tolist()
+        ([1.0, 0.0, 0.0], [0.0, 0.0, 1.0])
+        """
+        az, el = math.radians(self.azimuth_deg), math.radians(self.elevation_deg)
+        toward = np.array([math.cos(el) * math.cos(az), math.cos(el) * math.sin(az), math.sin(el)])
+        right = np.array([-math.sin(az), math.cos(az), 0.0])
+        up = np.cross(toward, right)
+        return right, up, toward
+
+
+@dataclass(frozen=True)
+class Lighting:
+    """Ambient + diffuse key and fill lights + Blinn-Phong highlight (directions in the camera
+    frame: x right, y up, z toward the eye).  The weights are our own choice, judged by eye:
+    bright enough that the darkest lit side keeps its hue, a highlight small enough not to
+    read as a colour of its own."""
+
+    ambient: float = 0.24
+    key: float = 0.66
+    fill: float = 0.16
+    specular: float = 0.18
+    shininess: float = 40.0
+    key_direction: tuple[float, float, float] = (-0.45, 0.55, 0.70)
+    fill_direction: tuple[float, float, float] = (0.60, -0.30, 0.74)
+    #: brightness of a back face seen through an open edge, relative to a front face
+    back_face: float = 0.55
+
+
+@dataclass(frozen=True)
+class Cutaway:
+    """A region removed from the picture: the points p with n_k . p > offset_k for every k.
+
+    With ``view_relative`` the normals are horizontal directions given relative to the
+    camera azimuth (x toward the eye, y to the right in the xy plane, z up) and the
+    offsets are measured from the image target; otherwise both are world coordinates, a0.
+    """
+
+    normals: tuple[tuple[float, float, float], ...]
+    offsets_a0: tuple[float, ...]
+    view_relative: bool = False
+
+    def __post_init__(self) -> None:
+        normals = np.asarray(self.normals, dtype=float).reshape(-1, 3)
+        lengths = np.linalg.norm(normals, axis=1)
+        if len(normals) == 0 or len(normals) != len(self.offsets_a0):
+            raise ValueError("a cutaway needs one offset per plane normal, and at least one plane")
+        if not np.all(lengths > 0) or not np.all(np.isfinite(normals)):
+            raise ValueError("cutaway plane normals must be finite and non-zero")
+        normals = normals / lengths[:, None]
+        object.__setattr__(self, "normals", tuple(tuple(float(c) for c in n) for n in normals))
+        object.__setattr__(self, "offsets_a0", tuple(float(o) for o in self.offsets_a0))
+
+    def world_planes(self, camera: Camera, target_a0) -> tuple[np.ndarray, np.ndarray]:
+        """Unit normals (K, 3) and offsets (K,) in world coordinates."""
+        n = np.array(self.normals)
+        o = np.array(self.offsets_a0)
+        if not self.view_relative:
+            return n, o
+        az = math.radians(camera.azimuth_deg)
+        toward = np.array([math.cos(az), math.sin(az), 0.0])
+        side = np.array([-math.sin(az), math.cos(az), 0.0])
+        world = n[:, :1] * toward + n[:, 1:2] * side + n[:, 2:3] * np.array([0.0, 0.0, 1.0])
+        return world, o + world @ np.asarray(target_a0, dtype=float)
+
+
+_AXES = {"x": (1.0, 0.0, 0.0), "y": (0.0, 1.0, 0.0), "z": (0.0, 0.0, 1.0)}
+_NUMBER = r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?"
+_CONDITION = re.compile(rf"^(?:(?P<axis>[xyz])|\((?P<vec>{_NUMBER},{_NUMBER},{_NUMBER})\))"
+                        rf"(?P<op>[<>])(?P<value>{_NUMBER})$")
+_HALF = math.sqrt(0.5)
+#: Named cuts, relative to the view: the half facing the eye, cut by the vertical plane through
+#: the target, and the quarter facing the eye, between two vertical planes at +-45 degrees.
+CUTAWAY_KEYWORDS: dict[str, Cutaway] = {
+    "front": Cutaway(((1.0, 0.0, 0.0),), (0.0,), view_relative=True),
+    "quadrant": Cutaway(((_HALF, _HALF, 0.0), (_HALF, -_HALF, 0.0)), (0.0, 0.0), view_relative=True),
+}
+
+
+def parse_cutaway(text: str) -> Cutaway:
+    """A cutaway from text: ``front``, ``quadrant``, or conditions joined by ``&``.
+
+    A condition is ``x>0``, ``z<-1.5`` or ``(1,1,0)>0`` (a normal vector and an offset in
+    a0, world coordinates); the region where all conditions hold is removed.
+
+    Examples
+    --------
+    >>> parse_cutaway("x>0&y>0").normals
+    ((1.0, 0.0, 0.0), (0.0, 1.0, 0.0))
+    >>> parse_cutaway("z<-1").normals, parse_cutaway("z<-1").offsets_a0
+    (((0.0, 0.0, -1.0),), (1.0,))
+    """
+    cleaned = re.sub(r"\s+", "", text).lower()
+    if cleaned in CUTAWAY_KEYWORDS:
+        return CUTAWAY_KEYWORDS[cleaned]
+    normals, offsets = [], []
+    for part in cleaned.split("&"):
+        mt = _CONDITION.match(part)
+        if mt is None:
+            raise ValueError(f"cannot read the cutaway {text!r}: use front, quadrant, or conditions "
+                             "such as x>0, z<-1.5, (1,1,0)>0 joined by &")
+        vec = np.array(_AXES[mt["axis"]] if mt["axis"] else [float(v) for v in mt["vec"].split(",")])
+        norm = float(np.linalg.norm(vec))
+        if norm == 0:
+            raise ValueError(f"the cutaway {text!r} has a zero normal vector")
+        sign = 1.0 if mt["op"] == ">" else -1.0
+        normals.append(tuple(float(c) + 0.0 for c in sign * vec / norm))  # + 0.0: no -0.0
+        offsets.append(sign * float(mt["value"]) / norm)
+    return Cutaway(tuple(normals), tuple(offsets))
+
+
+@dataclass(frozen=True, eq=False)
+class Render:
+    """A finished 3D render.
+
+    Attributes
+    ----------
+    rgba : ndarray, float32, (H, W, 4)
+        sRGB colour in [0, 1] with straight (not premultiplied) alpha; alpha is 1
+        everywhere when a background colour was given.
+    px_per_a0 : float
+        Image pixels per a0: everywhere for an orthographic camera, at the target's
+        depth for a perspective one.
+    camera : Camera
+        The camera with target, half-extent (and distance) filled in.
+    phase_map : str
+    labels : tuple of str
+        Labels of the states drawn.
+    """
+
+    rgba: np.ndarray
+    px_per_a0: float
+    camera: Camera
+    phase_map: str
+    labels: tuple[str, ...]
+
+
+def _as_list(surfaces: Surface | Sequence[Surface]) -> list[Surface]:
+    out = [surfaces] if isinstance(surfaces, Surface) else list(surfaces)
+    if not out or not all(isinstance(s, Surface) for s in out):
+        raise ValueError("render_surfaces needs one Surface or a sequence of Surfaces")
+    if not any(len(s.faces) for s in out):
+        raise ValueError("there is nothing to draw: the surface has no triangles "
+                         "(is the fraction too small for the lattice?)")
+    return out
+
+
+def nodal_axis_centre(surface: Surface) -> tuple[float, float, float]:
+    """Centre of the nodal z axis of `surface`'s state: every term needs m != 0 and one centre.
+
+    Raises
+    ------
+    ValueError
+        If psi does not vanish all along a line parallel to z.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from orbitalrender.state.model import eigenstate
+    >>> s = Surface(np.zeros((0, 3)), np.zeros((0, 3), int), np.zeros((0, 3)), np.zeros(0),
+    ...             1.0, None, None, None, (2, 2, 2), (1.0, 1.0, 1.0), eigenstate(2, 1, 1))
+    >>> nodal_axis_centre(s)
+    (0.0, 0.0, 0.0)
+    """
+    state = surface.state
+    if state is None:
+        raise ValueError("a nodal axis can only be drawn for an analytic state, not a user field")
+    if not state.is_single_centre or any(t.m == 0 for t in state.terms):
+        raise ValueError(f"state {state.label!r} has no nodal axis along z: that needs every term "
+                         "to have m != 0 and one centre")
+    return state.centres_a0[0]
+
+
+def _axis_segment(surfaces: list[Surface]) -> np.ndarray:
+    """End points (2, 3) of the dashed nodal axis."""
+    centre = np.array(nodal_axis_centre(surfaces[0]))
+    if any(nodal_axis_centre(s) != tuple(centre) for s in surfaces[1:]):
+        raise ValueError("the surfaces drawn together have nodal axes at different centres")
+    z = np.concatenate([s.vertices_a0[:, 2] for s in surfaces])
+    lo, hi = float(z.min()), float(z.max())
+    pad = _AXIS_OVERHANG * (hi - lo)
+    return np.array([[centre[0], centre[1], lo - pad], [centre[0], centre[1], hi + pad]])
+
+
+def frame_camera(surfaces: Surface | Sequence[Surface], camera: Camera = Camera(),
+                 aspect: float = 1.0, extra_points_a0: np.ndarray | None = None) -> Camera:
+    """`camera` with target, half-extent and (perspective) distance fitted to the surfaces.
+
+    Parameters
+    ----------
+    surfaces : Surface or sequence of Surface
+    camera : Camera
+        Values already set are kept.
+    aspect : float
+        Image width / height.
+    extra_points_a0 : ndarray (P, 3), optional
+        More points that must fit (e.g. the ends of a nodal axis).
+
+    Returns
+    -------
+    Camera
+    """
+    surfaces = _as_list(surfaces)
+    pts = np.concatenate([s.vertices_a0 for s in surfaces])
+    if extra_points_a0 is not None:
+        pts = np.concatenate([pts, np.asarray(extra_points_a0, dtype=float).reshape(-1, 3)])
+    target = np.array(camera.target_a0) if camera.target_a0 is not None \
+        else 0.5 * (pts.min(axis=0) + pts.max(axis=0))
+    rel = pts - target
+    right, up, toward = camera.basis()
+    xc, yc, zc = rel @ right, rel @ up, rel @ toward
+    distance = camera.distance_a0
+    if camera.projection == "perspective":
+        if distance is None:
+            radius = float(np.sqrt(np.max(np.sum(rel * rel, axis=1))))
+            distance = radius / math.sin(math.radians(0.5 * camera.field_of_view_deg))
+        w = distance - zc
+        if np.any(w <= 0):
+            raise ValueError("the eye is inside the surface: increase the camera distance")
+        xc, yc = xc * distance / w, yc * distance / w
+    half = camera.half_extent_a0
+    if half is None:
+        shorter = min(aspect, 1.0)
+        half = _FIT_MARGIN * max(float(np.max(np.abs(xc))) * shorter / aspect,
+                                 float(np.max(np.abs(yc))) * shorter, 1e-12)
+    return replace(camera, target_a0=tuple(float(t) for t in target), half_extent_a0=half,
+                   distance_a0=distance)
+
+
+@dataclass(frozen=True, eq=False)
+class _Projection:
+    """A resolved camera mapped to supersampled pixels."""
+
+    camera: Camera
+    width: int
+    height: int
+    px_per_a0: float  # supersampled pixels per a0 at the target depth
+    target: np.ndarray
+    right: np.ndarray
+    up: np.ndarray
+    toward: np.ndarray
+
+    @property
+    def perspective(self) -> bool:
+        return self.camera.projection == "perspective"
+
+    def project(self, points_a0: np.ndarray):
+        """(x_px, y_px, depth, divisor or None) of world points (P, 3)."""
+        rel = points_a0 - self.target
+        xc, yc, zc = rel @ self.right, rel @ self.up, rel @ self.toward
+        cx, cy, f = 0.5 * self.width, 0.5 * self.height, self.px_per_a0
+        if not self.perspective:
+            return cx + f * xc, cy - f * yc, -zc, None
+        d = self.camera.distance_a0
+        w = d - zc
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return cx + f * d * xc / w, cy - f * d * yc / w, w, w
+
+    def rays(self, rows: np.ndarray, cols: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Rays through pixel centres as p(t) = a + t b, t the depth of :meth:`project`."""
+        cx, cy, f = 0.5 * self.width, 0.5 * self.height, self.px_per_a0
+        u = ((cols + 0.5) - cx) / f
+        v = (cy - (rows + 0.5)) / f
+        if not self.perspective:
+            a = self.target + u[:, None] * self.right + v[:, None] * self.up
+            return a, np.broadcast_to(-self.toward, a.shape)
+        d = self.camera.distance_a0
+        a = np.broadcast_to(self.target + d * self.toward, (len(u), 3))
+        b = (u / d)[:, None] * self.right + (v / d)[:, None] * self.up - self.toward
+        return a, b
+
+
+def _projection(camera: Camera, width: int, height: int) -> _Projection:
+    right, up, toward = camera.basis()
+    f = 0.5 * min(width, height) * camera.zoom / camera.half_extent_a0
+    return _Projection(camera, width, height, f, np.array(camera.target_a0), right, up, toward)
+
+
+def _to_linear(srgb: np.ndarray) -> np.ndarray:
+    """sRGB -> linear light (IEC 61966-2-1)."""
+    srgb = np.asarray(srgb, dtype=float)
+    return np.where(srgb <= 0.04045, srgb / 12.92, ((srgb + 0.055) / 1.055) ** 2.4)
+
+
+def _to_srgb(linear: np.ndarray) -> np.ndarray:
+    """linear light -> sRGB (IEC 61966-2-1), clipped to [0, 1]."""
+    linear = np.clip(linear, 0.0, 1.0)
+    return np.where(linear <= 0.0031308, 12.92 * linear, 1.055 * linear ** (1 / 2.4) - 0.055)
+
+
+def _unit(v) -> np.ndarray:
+    v = np.asarray(v, dtype=float)
+    return v / np.linalg.norm(v, axis=-1, keepdims=True)
+
+
+#: Entries of the linear-light phase table used per pixel (step 0.09 degree, far below a
+#: visible difference); it is tabulated from :func:`phase_to_rgb`, not a map of its own.
+_SHADE_LUT_SIZE = 4096
+
+
+@cache
+def _linear_lut(scheme: str) -> np.ndarray:
+    phases = 2 * np.pi * np.arange(_SHADE_LUT_SIZE) / _SHADE_LUT_SIZE
+    return np.ascontiguousarray(_to_linear(phase_to_rgb(phases, scheme)))
+
+
+def _light_params(lighting: Lighting, proj: _Projection) -> np.ndarray:
+    """[key (3), fill (3), half vector (3), ambient, key, fill, specular, shininess] in world axes."""
+    frame = np.stack([proj.right, proj.up, proj.toward])
+    key = _unit(lighting.key_direction) @ frame
+    fill = _unit(lighting.fill_direction) @ frame
+    half = _unit(key + proj.toward)
+    return np.concatenate([key, fill, half, [lighting.ambient, lighting.key, lighting.fill,
+                                             lighting.specular, lighting.shininess]])
+
+
+@numba.njit(cache=True, nogil=True)
+def _light(nx, ny, nz, lp):  # pragma: no cover - compiled
+    """(diffuse factor, specular term) for a unit normal; lp from _light_params."""
+    dk = nx * lp[0] + ny * lp[1] + nz * lp[2]
+    df = nx * lp[3] + ny * lp[4] + nz * lp[5]
+    dh = nx * lp[6] + ny * lp[7] + nz * lp[8]
+    diffuse = lp[9] + lp[10] * max(dk, 0.0) + lp[11] * max(df, 0.0)
+    spec = lp[12] * max(dh, 0.0) ** lp[13] if dh > 0.0 else 0.0
+    return diffuse, spec
+
+
+@numba.njit(cache=True, nogil=True)
+def _lut_index(re, im, size):  # pragma: no cover - compiled
+    k = int(np.rint(np.arctan2(im, re) * (size / (2.0 * np.pi))))
+    return k % size
+
+
+@numba.njit(cache=True, nogil=True)
+def _shade_pixels(tri, wts, faces, normals, phasors, front, lut, lp, back_gain,
+                  out, back):  # pragma: no cover - compiled
+    """Linear-light colour of every covered pixel; marks back-facing pixels in `back`."""
+    h, w = tri.shape
+    size = lut.shape[0]
+    for j in range(h):
+        for i in range(w):
+            t = tri[j, i]
+            if t < 0:
+                continue
+            nx = 0.0
+            ny = 0.0
+            nz = 0.0
+            pr = 0.0
+            pi = 0.0
+            for k in range(3):
+                v = faces[t, k]
+                b = wts[j, i, k]
+                nx += b * normals[v, 0]
+                ny += b * normals[v, 1]
+                nz += b * normals[v, 2]
+                pr += b * phasors[v].real
+                pi += b * phasors[v].imag
+            norm = np.sqrt(nx * nx + ny * ny + nz * nz)
+            if norm > 0.0:
+                nx /= norm
+                ny /= norm
+                nz /= norm
+            gain = 1.0
+            if not front[t]:
+                back[j, i] = True
+                nx, ny, nz = -nx, -ny, -nz
+                gain = back_gain
+            diffuse, spec = _light(nx, ny, nz, lp)
+            c = _lut_index(pr, pi, size)
+            for ch in range(3):
+                out[j, i, ch] = gain * (lut[c, ch] * diffuse + spec)
+
+
+@numba.njit(cache=True, nogil=True)
+def _shade_points(normals, psi, lut, lp):  # pragma: no cover - compiled
+    """Linear-light colour (P, 3) of flat points (cut caps) with their normals and psi."""
+    out = np.empty((normals.shape[0], 3), dtype=np.float32)
+    size = lut.shape[0]
+    for p in range(normals.shape[0]):
+        diffuse, spec = _light(normals[p, 0], normals[p, 1], normals[p, 2], lp)
+        c = _lut_index(psi[p].real, psi[p].imag, size)
+        for ch in range(3):
+            out[p, ch] = lut[c, ch] * diffuse + spec
+    return out
+
+
+@numba.njit(cache=True, nogil=True)
+def _downsample(img, alpha, ss):  # pragma: no cover - compiled
+    """Box filter: mean of ss x ss blocks of premultiplied colour (H, W, 3) and alpha."""
+    h = img.shape[0] // ss
+    w = img.shape[1] // ss
+    out = np.zeros((h, w, 3), dtype=np.float32)
+    a_out = np.zeros((h, w), dtype=np.float32)
+    scale = 1.0 / (ss * ss)
+    for j in range(h):
+        for i in range(w):
+            r = 0.0
+            g = 0.0
+            b = 0.0
+            a = 0.0
+            for dj in range(ss):
+                for di in range(ss):
+                    y = j * ss + dj
+                    x = i * ss + di
+                    r += img[y, x, 0]
+                    g += img[y, x, 1]
+                    b += img[y, x, 2]
+                    a += alpha[y, x]
+            out[j, i, 0] = r * scale
+            out[j, i, 1] = g * scale
+            out[j, i, 2] = b * scale
+            a_out[j, i] = a * scale
+    return out, a_out
+
+
+#: One-entry table for caps of a user field, whose psi is not known off the mesh: mid grey.
+_GREY_LUT = _to_linear(np.full((1, 3), 0.6))
+
+
+@dataclass(frozen=True, eq=False)
+class _Mesh:
+    """One layer's mesh with what shading needs per vertex and per triangle."""
+
+    vertices: np.ndarray
+    faces: np.ndarray
+    normals: np.ndarray
+    phasors: np.ndarray  # unit psi/|psi|, already rotated for the sign map
+    front: np.ndarray    # per triangle: True when it faces the eye
+
+
+def _mesh(surfaces: list[Surface], rotation: complex, proj: _Projection) -> _Mesh:
+    verts, faces, normals, psi = [], [], [], []
+    base = 0
+    for s in surfaces:
+        verts.append(s.vertices_a0)
+        faces.append(np.asarray(s.faces, dtype=np.int64) + base)
+        normals.append(s.normals)
+        psi.append(s.psi)
+        base += len(s.vertices_a0)
+    v = np.ascontiguousarray(np.concatenate(verts), dtype=np.float64)
+    f = np.ascontiguousarray(np.concatenate(faces))
+    n = np.ascontiguousarray(np.concatenate(normals), dtype=np.float64)
+    p = np.concatenate(psi).astype(complex) * np.conj(rotation)
+    mag = np.abs(p)
+    phasors = np.where(mag > 0, p / np.where(mag > 0, mag, 1.0), 1.0)
+    # facing from the geometric normal, oriented by the outward vertex normals (robust to winding)
+    a, b, c = v[f[:, 0]], v[f[:, 1]], v[f[:, 2]]
+    geo = np.cross(b - a, c - a)
+    geo *= np.sign(np.sum(geo * (n[f[:, 0]] + n[f[:, 1]] + n[f[:, 2]]), axis=1))[:, None]
+    if proj.perspective:
+        eye = proj.target + proj.camera.distance_a0 * proj.toward
+        view = eye - (a + b + c) / 3.0
+    else:
+        view = proj.toward
+    front = np.sum(geo * view, axis=1) >= 0
+    return _Mesh(v, f, n, phasors, front)
+
+
+def _clip_values(vertices: np.ndarray, planes) -> np.ndarray | None:
+    if planes is None:
+        return None
+    normals, offsets = planes
+    return vertices @ normals.T - offsets
+
+
+def _cap_exit(a: np.ndarray, b: np.ndarray, planes) -> tuple[np.ndarray, np.ndarray]:
+    """Depth t at which each ray p = a + t b leaves the removed region (inf: it never was in
+    it), and the index of the plane it leaves through."""
+    normals, offsets = planes
+    s0 = a @ normals.T - offsets        # plane value at t = 0
+    ds = b @ normals.T                  # its rate of change along the ray
+    with np.errstate(divide="ignore", invalid="ignore"):
+        cross = -s0 / ds
+    # plane k holds (s > 0) for t > cross if ds > 0, for t < cross if ds < 0, always or never if 0
+    parallel_in = np.where(s0 > 0, -np.inf, np.inf)
+    lower = np.where(ds > 0, cross, np.where(ds < 0, -np.inf, parallel_in))
+    upper = np.where(ds < 0, cross, np.where(ds > 0, np.inf, -parallel_in))
+    t_in = lower.max(axis=1)
+    t_out = upper.min(axis=1)
+    which = upper.argmin(axis=1)
+    t_out = np.where(t_in < t_out, t_out, np.inf)
+    return t_out, which
+
+
+def _shade(frags: Fragments, mesh: _Mesh, proj: _Projection, scheme: str, lighting: Lighting,
+           rotation: complex, planes, cap_psi: Callable | None) -> tuple[np.ndarray, np.ndarray]:
+    """Linear-light colour (H, W, 3) float32 and depth (H, W) of a layer (inf where empty)."""
+    h, w = frags.triangle.shape
+    lin = np.zeros((h, w, 3), dtype=np.float32)
+    back = np.zeros((h, w), dtype=np.bool_)
+    lut = _linear_lut(scheme)
+    lp = _light_params(lighting, proj)
+    _shade_pixels(frags.triangle, frags.weights, mesh.faces, mesh.normals, mesh.phasors,
+                  mesh.front, lut, lp, float(lighting.back_face), lin, back)
+    depth = frags.depth
+    if planes is None or not back.any():
+        return lin, depth
+    depth = depth.copy()
+    flat = np.flatnonzero(back.ravel())
+    for start in range(0, len(flat), _CHUNK_PIXELS):
+        idx = flat[start:start + _CHUNK_PIXELS]
+        rows, cols = np.divmod(idx, w)
+        a, b = proj.rays(rows, cols)
+        t_out, which = _cap_exit(a, b, planes)
+        capped = np.isfinite(t_out) & (t_out <= depth[rows, cols])
+        if not np.any(capped):
+            continue
+        t = t_out[capped]
+        points = a[capped] + t[:, None] * b[capped]
+        cap_normal = np.ascontiguousarray(planes[0][which[capped]])
+        if cap_psi is None:  # no analytic psi: a neutral grey cap
+            colour = _shade_points(cap_normal, np.ones(len(t), dtype=complex), _GREY_LUT, lp)
+        else:
+            psi = np.asarray(cap_psi(*points.T), dtype=complex) * np.conj(rotation)
+            colour = _shade_points(cap_normal, np.ascontiguousarray(psi), lut, lp)
+        rr, cc = rows[capped], cols[capped]
+        lin[rr, cc] = colour
+        depth[rr, cc] = t
+    return lin, depth
+
+
+def _outer_components(components: list[Surface], centre: np.ndarray) -> list[bool]:
+    """True for a component lying wholly farther from `centre` than all of another component."""
+    radii = [np.linalg.norm(c.vertices_a0 - centre, axis=1) for c in components]
+    lows = [float(r.min()) for r in radii]
+    highs = [float(r.max()) for r in radii]
+    return [any(lows[i] >= highs[j] for j in range(len(components)) if j != i)
+            for i in range(len(components))]
+
+
+def _axis_layer(segment: np.ndarray, proj: _Projection, ss: int, width_px: float = 1.6,
+                dash_px: float = 7.0, gap_px: float = 5.0) -> np.ndarray:
+    """Depth (H, W) of a dashed line (inf off the line); sizes in output pixels."""
+    h, w = proj.height, proj.width
+    x, y, depth, _ = proj.project(segment)
+    length = float(np.hypot(x[1] - x[0], y[1] - y[0]))
+    count = max(2, int(math.ceil(length / 0.5)) + 1)
+    s = np.linspace(0.0, 1.0, count)
+    arc = s * length / ss
+    on = np.mod(arc, dash_px + gap_px) < dash_px
+    s = s[on]
+    points = segment[0] + s[:, None] * (segment[1] - segment[0])
+    px, py, pd, _ = proj.project(points)
+    radius = 0.5 * width_px * ss
+    r = int(math.ceil(radius))
+    oy, ox = np.mgrid[-r:r + 1, -r:r + 1]
+    disc = (ox**2 + oy**2) <= radius**2
+    ox, oy = ox[disc], oy[disc]
+    cols = (np.floor(px)[:, None] + ox[None]).astype(np.int64).ravel()
+    rows = (np.floor(py)[:, None] + oy[None]).astype(np.int64).ravel()
+    dep = np.repeat(pd, len(ox))
+    keep = (cols >= 0) & (cols < w) & (rows >= 0) & (rows < h)
+    out = np.full(h * w, np.inf)
+    np.minimum.at(out, rows[keep] * w + cols[keep], dep[keep])
+    return out.reshape(h, w)
+
+
+#: Colour of the nodal axis line (sRGB): a dark grey that reads on every hue of the maps.
+_AXIS_RGB = (0.12, 0.12, 0.12)
+
+
+def render_surfaces(surfaces: Surface | Sequence[Surface], width_px: int = 800, height_px: int = 800,
+                    camera: Camera = Camera(), phase_map: str = "uniform",
+                    lighting: Lighting = Lighting(), cutaway: Cutaway | None = None,
+                    translucent_outer: float | None = None, nodal_axis: bool = False,
+                    supersample: int = 3, background: tuple[float, float, float] | None = (1.0, 1.0, 1.0),
+                    cap_psi: Callable | None = None) -> Render:
+    """Render surfaces shaded and coloured by the phase of psi.
+
+    Parameters
+    ----------
+    surfaces : Surface or sequence of Surface
+        Drawn together in one scene (they occlude each other).
+    width_px, height_px : int
+        Image size, 16 to 8192 px.
+    camera : Camera
+        Unset target/half-extent are fitted to the surfaces (:func:`frame_camera`).
+    phase_map : {"uniform", "cvd", "sign"}
+    lighting : Lighting
+    cutaway : Cutaway, optional
+        Region removed; the cut is capped with psi evaluated at the cap.
+    translucent_outer : float, optional
+        Opacity in (0, 1] for outer components (those wholly outside another one).
+    nodal_axis : bool
+        Draw the dashed nodal z axis (needs m != 0 in every term).
+    supersample : int
+        Samples per pixel side, 1 to 4 (3 gives 9 samples per pixel).
+    background : RGB tuple or None
+        None leaves a transparent background.
+    cap_psi : callable (x, y, z) -> psi, optional
+        Evaluates psi on the cut; default ``surface.state.psi`` (a grey cap for a user field).
+
+    Returns
+    -------
+    Render
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from skimage.measure import marching_cubes
+    >>> from orbitalrender.state.model import eigenstate
+    >>> g = np.linspace(-3, 3, 24)
+    >>> v, f, n, _ = marching_cubes(np.add.outer(np.add.outer(g**2, g**2), g**2), 4.0,
+    ...                             spacing=(g[1] - g[0],) * 3, gradient_direction="ascent")
+    >>> s = eigenstate(1, 0, 0)
+    >>> v = v - 3.0
+    >>> surf = Surface(v, f, n, s.psi(*v.T), 1.0, None, None, None, (24,) * 3, (0.26,) * 3, s)
+    >>> r = render_surfaces(surf, 64, 48, supersample=2)
+    >>> r.rgba.shape
+    (48, 64, 4)
+    """
+    surfaces = _as_list(surfaces)
+    width_px, height_px, ss = int(width_px), int(height_px), int(supersample)
+    if not (16 <= width_px <= 8192 and 16 <= height_px <= 8192):
+        raise ValueError(f"the image size must be 16 to 8192 px per side, got {width_px} x {height_px}")
+    if not 1 <= ss <= 4:
+        raise ValueError(f"supersample must be 1 to 4, got {supersample}")
+    if phase_map not in PHASE_SCHEMES:
+        raise ValueError(f"unknown phase map {phase_map!r}: use one of {', '.join(PHASE_SCHEMES)}")
+    if translucent_outer is not None and not 0.0 < translucent_outer <= 1.0:
+        raise ValueError(f"the opacity of outer shells must lie in (0, 1], got {translucent_outer}")
+    segment = _axis_segment(surfaces) if nodal_axis else None
+    camera = frame_camera(surfaces, camera, width_px / height_px, segment)
+    proj = _projection(camera, width_px * ss, height_px * ss)
+    psi_all = np.concatenate([s.psi for s in surfaces])
+    rotation = real_rotation(psi_all) if phase_map == "sign" else 1.0 + 0.0j
+    planes = cutaway.world_planes(camera, camera.target_a0) if cutaway is not None else None
+    if cap_psi is None and surfaces[0].state is not None:
+        cap_psi = surfaces[0].state.psi
+
+    opaque, translucent = surfaces, []
+    if translucent_outer is not None and translucent_outer < 1.0:
+        from ..surface.topology import split_components
+
+        components = [c for s in surfaces for c in split_components(s)]
+        centre = np.array(camera.target_a0)
+        outer = _outer_components(components, centre)
+        opaque = [c for c, o in zip(components, outer) if not o]
+        translucent = [c for c, o in zip(components, outer) if o]
+
+    def layer(group: list[Surface]) -> tuple[np.ndarray, np.ndarray]:
+        mesh = _mesh(group, rotation, proj)
+        x, y, depth, divisor = proj.project(mesh.vertices)
+        frags = rasterize(x, y, depth, mesh.faces, proj.width, proj.height,
+                          _clip_values(mesh.vertices, planes), divisor)
+        return _shade(frags, mesh, proj, phase_map, lighting, rotation, planes, cap_psi)
+
+    if opaque:
+        lin, depth = layer(opaque)
+    else:
+        lin = np.zeros((proj.height, proj.width, 3), dtype=np.float32)
+        depth = np.full((proj.height, proj.width), np.inf)
+    if segment is not None:
+        line = _axis_layer(segment, proj, ss)
+        on_top = line < depth
+        lin[on_top] = _to_linear(_AXIS_RGB)
+        depth = np.where(on_top, line, depth)
+    alpha = np.isfinite(depth).astype(np.float32)
+    premult = lin  # opaque: alpha is 0 or 1 and the empty pixels are black already
+    if translucent:
+        layers = [layer([c]) for c in translucent]
+        stacked_depth = np.stack([d for _, d in layers])
+        order = np.argsort(-stacked_depth, axis=0)  # far to near, per pixel
+        stacked_lin = np.stack([c for c, _ in layers])
+        a = np.float32(translucent_outer)
+        for k in range(len(layers)):
+            pick = order[k][None]
+            d = np.take_along_axis(stacked_depth, pick, 0)[0]
+            c = np.take_along_axis(stacked_lin, pick[..., None], 0)[0]
+            over = d < depth
+            premult[over] = a * c[over] + (1 - a) * premult[over]
+            alpha[over] = a + (1 - a) * alpha[over]
+    # antialiasing: box filter over the samples, in linear light
+    premult, alpha = _downsample(premult, alpha, ss)
+    if background is not None:
+        bg = _to_linear(np.asarray(background, dtype=float)).astype(np.float32)
+        colour = premult + (1.0 - alpha)[..., None] * bg
+        alpha = np.ones_like(alpha)
+    else:
+        colour = premult / np.where(alpha > 0, alpha, 1.0)[..., None]
+    rgba = np.concatenate([_to_srgb(colour), alpha[..., None]], axis=2).astype(np.float32)
+    labels = tuple(dict.fromkeys(s.state.label for s in surfaces if s.state is not None))
+    return Render(rgba, proj.px_per_a0 / ss, camera, phase_map, labels)
