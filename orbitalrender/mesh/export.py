@@ -1,0 +1,272 @@
+"""Mesh step, export: a Surface to a coloured mesh file at a chosen unit or printed size, with a report.
+
+The file format follows the suffix (``.ply``, ``.obj``, ``.stl``, ``.glb``; one
+module per format beside this one).  Coordinates are in a0 unless another
+length unit is asked for; ``size_mm`` instead scales the surface so that the
+largest side of its bounding box is that many millimetres (the unit printer
+slicers assume).  Every file is written through :func:`orbitalrender.atomic.atomic_path`
+and checked by reloading it with trimesh before it replaces an earlier file.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import os
+from collections.abc import Callable, Sequence
+from pathlib import Path
+
+import numpy as np
+import trimesh
+
+from ..atomic import atomic_path, check_writable
+from ..errors import UserInputError
+from ..picture.colormap import PHASE_SCHEMES, psi_to_rgb, real_rotation
+from ..state.units import a0_to
+from ..surface.model import Surface
+from . import glb, obj, ply, stl
+
+__all__ = [
+    "MESH_SUFFIXES",
+    "mesh_suffix",
+    "length_scale",
+    "surface_mesh",
+    "submesh",
+    "face_components",
+    "encode_bodies",
+    "write_bodies",
+    "mesh_summary",
+    "surface_report",
+    "write_report",
+]
+
+#: File suffix -> the format module that encodes it.
+MESH_SUFFIXES = {m.SUFFIX: m for m in (ply, obj, stl, glb)}
+#: Colour of struts and bases (sRGB, 0-255): a neutral mid grey, so they read as "not the orbital".
+SUPPORT_RGBA = (150, 150, 150, 255)
+_MM3_PER_CM3 = 1000.0
+
+
+def mesh_suffix(path: str | os.PathLike) -> str:
+    """The lower-case suffix of `path`, or UserInputError if it is not a mesh format we write.
+
+    Examples
+    --------
+    >>> mesh_suffix("lobes.STL")
+    '.stl'
+    """
+    suffix = Path(path).suffix.lower()
+    if suffix not in MESH_SUFFIXES:
+        raise UserInputError(f"cannot tell the mesh format of {os.fspath(path)!r}: the name must end in "
+                             f"{', '.join(MESH_SUFFIXES)}")
+    return suffix
+
+
+def length_scale(vertices_a0: np.ndarray, units: str = "a0",
+                 size_mm: float | None = None) -> tuple[float, str]:
+    """(factor, unit): multiply a0 coordinates by `factor` to get lengths in `unit`.
+
+    With `size_mm` the unit is ``"mm"`` and the factor makes the largest side of the
+    bounding box of `vertices_a0` equal to `size_mm`; otherwise the unit is `units`
+    (a0, angstrom, nm, pm) at its physical value.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> length_scale(np.array([[-2.0, 0, 0], [2.0, 1, 1]]), size_mm=40.0)
+    (10.0, 'mm')
+    >>> round(length_scale(np.zeros((1, 3)), "angstrom")[0], 6)
+    0.529177
+    """
+    if size_mm is None:
+        try:
+            return a0_to(units), units
+        except ValueError as exc:
+            raise UserInputError(str(exc)) from None
+    size_mm = float(size_mm)
+    if not (size_mm > 0 and math.isfinite(size_mm)):
+        raise UserInputError(f"the printed size must be a positive number of millimetres, got {size_mm:g}")
+    extent = float(np.max(np.ptp(vertices_a0, axis=0))) if len(vertices_a0) else 0.0
+    if extent <= 0:
+        raise UserInputError("the surface has no extent to scale")
+    return size_mm / extent, "mm"
+
+
+def surface_mesh(surface: Surface, factor: float = 1.0, scheme: str = "uniform",
+                 rotation: complex | None = None) -> trimesh.Trimesh:
+    """The surface as a trimesh mesh with coordinates times `factor`, phase colours
+    (``visual.vertex_colors``, RGBA uint8) and vertex attributes ``phase`` (rad) and
+    ``density`` (|psi|^2, a0^-3).
+
+    `rotation` is the global phase removed before the ``"sign"`` map (default:
+    :func:`~orbitalrender.picture.colormap.real_rotation` of the surface's psi).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from orbitalrender.surface.model import Surface
+    >>> v = np.array([[0, 0, 0], [1, 0, 0], [0, 1, 0], [0, 0, 1]], float)
+    >>> f = np.array([[0, 2, 1], [0, 1, 3], [0, 3, 2], [1, 2, 3]])
+    >>> s = Surface(v, f, v, np.ones(4, complex), 0.1, None, None, None, (2, 2, 2), (1, 1, 1))
+    >>> m = surface_mesh(s, factor=2.0)
+    >>> m.vertices.max(), m.visual.vertex_colors.shape
+    (np.float64(2.0), (4, 4))
+    """
+    if scheme not in PHASE_SCHEMES:
+        raise UserInputError(f"unknown phase colour map {scheme!r}: use one of {', '.join(PHASE_SCHEMES)}")
+    if scheme == "sign" and rotation is None:
+        rotation = real_rotation(surface.psi)
+    rgb = psi_to_rgb(surface.psi, scheme, rotation=rotation)
+    rgba = np.empty((len(rgb), 4), dtype=np.uint8)
+    rgba[:, :3] = np.clip(np.round(rgb * 255.0), 0, 255)
+    rgba[:, 3] = 255
+    mesh = trimesh.Trimesh(np.asarray(surface.vertices_a0, float) * factor, surface.faces,
+                           vertex_colors=rgba, process=False, validate=False)
+    mesh.vertex_attributes["phase"] = surface.phase.astype(np.float32)
+    mesh.vertex_attributes["density"] = (surface.magnitude ** 2).astype(np.float32)
+    return mesh
+
+
+def submesh(mesh: trimesh.Trimesh, face_index: np.ndarray) -> trimesh.Trimesh:
+    """The faces `face_index` of `mesh` as a new mesh, keeping vertex colours and vertex attributes.
+
+    Examples
+    --------
+    >>> import trimesh
+    >>> len(submesh(trimesh.creation.box(), [0, 1]).vertices)
+    4
+    """
+    faces = np.asarray(mesh.faces)[np.asarray(face_index)]
+    used, inverse = np.unique(faces, return_inverse=True)
+    part = trimesh.Trimesh(mesh.vertices[used], inverse.reshape(-1, 3), process=False, validate=False)
+    if mesh.visual.kind == "vertex":
+        part.visual.vertex_colors = mesh.visual.vertex_colors[used]
+    for key, value in mesh.vertex_attributes.items():
+        part.vertex_attributes[key] = np.asarray(value)[used]
+    return part
+
+
+def face_components(mesh: trimesh.Trimesh) -> list[np.ndarray]:
+    """Face indices of each edge-connected component, largest first.
+
+    Examples
+    --------
+    >>> import trimesh
+    >>> box = trimesh.creation.box()
+    >>> two = trimesh.util.concatenate([box, box.copy().apply_translation([3, 0, 0])])
+    >>> [len(c) for c in face_components(two)]
+    [12, 12]
+    """
+    labels = trimesh.graph.connected_component_labels(mesh.face_adjacency, node_count=len(mesh.faces))
+    order = np.argsort(labels, kind="stable")
+    groups = np.split(order, np.flatnonzero(np.diff(labels[order])) + 1)
+    return sorted(groups, key=len, reverse=True)
+
+
+def encode_bodies(bodies: Sequence[trimesh.Trimesh], suffix: str, names: Sequence[str] | None = None,
+                  comment: str = "", units: str = "") -> bytes:
+    """The file contents for `bodies` in the format of `suffix` (see :data:`MESH_SUFFIXES`)."""
+    if suffix == ".glb":
+        return glb.encode_glb(bodies, names=names, units=units)
+    if suffix == ".obj":
+        return obj.encode_obj(bodies, comment=comment, names=names)
+    if suffix == ".ply":
+        return ply.encode_ply(bodies, comment=comment)
+    return stl.encode_stl(bodies, comment=comment)
+
+
+def _reload(path: Path, suffix: str) -> trimesh.Trimesh:
+    """The file read back by trimesh as one mesh (all bodies together)."""
+    loaded = trimesh.load(path, file_type=suffix[1:], process=False, force="mesh")
+    if not isinstance(loaded, trimesh.Trimesh):
+        raise OSError(f"{path} did not read back as a triangle mesh")
+    return loaded
+
+
+def write_bodies(path: str | os.PathLike, bodies: Sequence[trimesh.Trimesh],
+                 names: Sequence[str] | None = None, comment: str = "", units: str = "",
+                 check: Callable[[trimesh.Trimesh], None] | None = None) -> trimesh.Trimesh:
+    """Write `bodies` to `path` (format from the suffix) and return the file as read back.
+
+    The file is written to a temporary name beside `path` and reloaded with trimesh;
+    its vertex and face counts must match what was written (STL stores each triangle's
+    corners separately, so there the reloaded mesh is merged first) and `check`, if
+    given, may raise to refuse it.  Only then does it replace `path`: on any failure an
+    earlier file at `path` is left as it was.
+    """
+    suffix = mesh_suffix(path)
+    data = encode_bodies(bodies, suffix, names=names, comment=comment, units=units)
+    vertices = sum(len(b.vertices) for b in bodies)
+    faces = sum(len(b.faces) for b in bodies)
+    with atomic_path(path) as tmp:
+        tmp.write_bytes(data)
+        loaded = _reload(tmp, suffix)
+        if suffix == ".stl":
+            loaded.merge_vertices()
+        if len(loaded.faces) != faces or (suffix != ".stl" and len(loaded.vertices) != vertices):
+            raise OSError(f"{path} read back with {len(loaded.vertices)} vertices and "
+                          f"{len(loaded.faces)} faces instead of {vertices} and {faces}")
+        if check is not None:
+            check(loaded)
+    return loaded
+
+
+def mesh_summary(mesh: trimesh.Trimesh, factor: float) -> dict:
+    """Counts, components, Euler characteristics, watertightness and volume of a written mesh
+    whose lengths are a0 times `factor` (volume returned in a0^3 and in the file's unit^3)."""
+    parts = face_components(mesh)
+    chis = []
+    for faces in parts:
+        part = submesh(mesh, faces)
+        chis.append(int(part.euler_number))
+    volume = float(mesh.volume) if len(mesh.faces) else 0.0
+    return {
+        "vertices": int(len(mesh.vertices)),
+        "faces": int(len(mesh.faces)),
+        "components": len(parts),
+        "euler_characteristics": chis,
+        "watertight": bool(mesh.is_watertight),
+        "volume_a0_3": volume / factor**3,
+        "volume_units3": volume,
+    }
+
+
+def surface_report(surface: Surface, written: trimesh.Trimesh, factor: float, unit: str,
+                   size_mm: float | None = None) -> dict:
+    """The JSON-ready report of an export: the surface's provenance and the written mesh's
+    geometry; after a printed size also ``size_mm`` and ``material_cm3`` (solid volume of the
+    written model, struts and base included)."""
+    report = {
+        "state": surface.state.label if surface.state is not None else None,
+        "fraction_requested": surface.fraction_requested,
+        "fraction_enclosed": surface.fraction_enclosed,
+        "fraction_error": surface.fraction_error,
+        "level": surface.level,
+        "lattice_shape": list(surface.lattice_shape),
+        "spacing_a0": list(surface.spacing_a0),
+        "units": unit,
+        "units_per_a0": factor,
+    }
+    report.update(mesh_summary(written, factor))
+    if size_mm is not None:
+        report["size_mm"] = float(size_mm)
+        report["extent_mm"] = [float(e) for e in np.ptp(written.vertices, axis=0)]
+        report["material_cm3"] = report["volume_units3"] / _MM3_PER_CM3
+    return report
+
+
+def write_report(path: str | os.PathLike, report: dict) -> None:
+    """Write `report` as one indented JSON object (through atomic_path)."""
+    check_writable(path)
+    text = json.dumps(report, indent=2, default=_json_default, allow_nan=False)
+    with atomic_path(path) as tmp:
+        tmp.write_text(text + "\n", encoding="utf-8")
+
+
+def _json_default(value):
+    if isinstance(value, np.generic):
+        return value.item()
+    if isinstance(value, np.ndarray):
+        return value.tolist()
+    raise TypeError(f"cannot write {type(value).__name__} to JSON")
+

@@ -1,0 +1,86 @@
+"""Mesh step, PLY format: binary little-endian PLY with phase colours and per-vertex phase and density.
+
+Layout (written by :func:`trimesh.exchange.ply.export_ply`, which supports
+custom vertex properties)::
+
+    ply
+    format binary_little_endian 1.0
+    comment orbitalrender <label>; units <unit>
+    element vertex V
+    property float x          \\
+    property float y           } position in the stated unit
+    property float z          /
+    property uchar red        \\
+    property uchar green       } sRGB colour of arg psi (0-255); alpha is 255
+    property uchar blue        }
+    property uchar alpha      /
+    property float phase       arg psi in radians, (-pi, pi]; NaN on struts and base
+    property float density     |psi|^2 in a0^-3 (whatever the length unit); NaN on struts and base
+    [property int body]        0, 1, ... when the file holds several bodies
+    element face F
+    property list uchar int vertex_indices
+    end_header
+    <V vertex records, 28 (or 32) bytes each> <F face records, 13 bytes each>
+
+Faces are counter-clockwise seen from outside.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+import numpy as np
+import trimesh
+
+__all__ = ["SUFFIX", "encode_ply"]
+
+SUFFIX = ".ply"
+
+
+def encode_ply(bodies: Sequence[trimesh.Trimesh], comment: str = "") -> bytes:
+    """The bytes of one binary PLY holding every body (a ``body`` property tells them apart
+    when there is more than one).
+
+    Parameters
+    ----------
+    bodies : sequence of trimesh.Trimesh
+        Each with vertex colours and ``vertex_attributes`` ``phase`` and ``density``.
+    comment : str
+        One line for the header (label, unit).
+
+    Returns
+    -------
+    bytes
+
+    Examples
+    --------
+    >>> import trimesh
+    >>> m = trimesh.creation.icosphere(0)
+    >>> encode_ply([m])[:30]
+    b'ply\\nformat binary_little_endia'
+    """
+    mesh = _concatenate(bodies)
+    data = trimesh.exchange.ply.export_ply(mesh, encoding="binary_little_endian",
+                                          vertex_normal=False, include_attributes=True)
+    head, sep, body = data.partition(b"end_header\n")
+    # our own comment line in place of the writer's, after the format line as PLY requires
+    lines = [ln for ln in head.split(b"\n") if ln and not ln.startswith(b"comment")]
+    line = " ".join(f"orbitalrender {comment}".split()).encode("ascii", "replace")
+    lines.insert(2, b"comment " + line)
+    return b"\n".join(lines) + b"\n" + sep + body
+
+
+def _concatenate(bodies: Sequence[trimesh.Trimesh]) -> trimesh.Trimesh:
+    """One mesh from several, keeping colours and float vertex attributes; adds ``body``."""
+    if len(bodies) == 1:
+        mesh = bodies[0].copy()
+    else:
+        mesh = trimesh.util.concatenate(list(bodies))
+        for key in bodies[0].vertex_attributes:
+            mesh.vertex_attributes[key] = np.concatenate([b.vertex_attributes[key] for b in bodies])
+        mesh.vertex_attributes["body"] = np.concatenate(
+            [np.full(len(b.vertices), i, dtype=np.int32) for i, b in enumerate(bodies)])
+    for key, value in list(mesh.vertex_attributes.items()):
+        if np.asarray(value).dtype.kind == "f":
+            mesh.vertex_attributes[key] = np.asarray(value, dtype=np.float32)
+    return mesh
