@@ -38,6 +38,8 @@ __all__ = [
     "psi_to_rgb",
     "real_rotation",
     "SIGN_COLOURS",
+    "srgb_to_linear",
+    "linear_to_srgb",
 ]
 
 PHASE_SCHEMES = ("uniform", "cvd", "sign")
@@ -181,3 +183,27 @@ def psi_to_rgb(psi: np.ndarray, scheme: str = "uniform", rotation: complex | Non
         u = real_rotation(psi) if rotation is None else rotation
         return phase_to_rgb(np.angle(psi * np.conj(u)), "sign")
     return phase_to_rgb(np.angle(psi), scheme)
+
+
+def srgb_to_linear(srgb: np.ndarray) -> np.ndarray:
+    """sRGB values in [0, 1] -> linear light (IEC 61966-2-1 transfer function).
+
+    Examples
+    --------
+    >>> round(float(srgb_to_linear(0.5)), 6)
+    0.214041
+    """
+    srgb = np.asarray(srgb, dtype=float)
+    return np.where(srgb <= 0.04045, srgb / 12.92, ((srgb + 0.055) / 1.055) ** 2.4)
+
+
+def linear_to_srgb(linear: np.ndarray) -> np.ndarray:
+    """Linear light -> sRGB in [0, 1] (IEC 61966-2-1), clipped to [0, 1] first.
+
+    Examples
+    --------
+    >>> round(float(linear_to_srgb(srgb_to_linear(0.3))), 12)
+    0.3
+    """
+    linear = np.clip(np.asarray(linear, dtype=float), 0.0, 1.0)
+    return np.where(linear <= 0.0031308, 12.92 * linear, 1.055 * linear ** (1 / 2.4) - 0.055)
