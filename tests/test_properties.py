@@ -79,9 +79,9 @@ def test_most_probable_radius_closed_forms():
     # Circular states l = n-1: r^2 R^2 ∝ r^{2n} e^{-2Zr/n}, largest at n^2 a / Z.
     for n in (1, 2, 5, 20, 40):
         for Z in (1.0, 2.5):
-            assert np.isclose(most_probable_radius(n, n - 1, Z), n * n / Z, rtol=1e-7)
+            assert np.isclose(most_probable_radius(n, n - 1, Z), n * n / Z, rtol=1e-13)
     # 2s: d/dr [r^2 (2 - r)^2 e^{-r}] = 0 at r = 3 + sqrt 5 (the outer, larger maximum).
-    assert np.isclose(most_probable_radius(2, 0), 3 + math.sqrt(5), rtol=1e-7)
+    assert np.isclose(most_probable_radius(2, 0), 3 + math.sqrt(5), rtol=1e-13)
 
 
 def test_radius_holding_90_percent_of_1s():
