@@ -57,6 +57,7 @@ from .raster import Fragments, rasterize
 __all__ = [
     "PROJECTIONS",
     "Camera",
+    "DEFAULT_CAMERA",
     "Lighting",
     "Cutaway",
     "Render",
@@ -151,6 +152,10 @@ class Camera:
         right = np.array([-math.sin(az), math.cos(az), 0.0])
         up = np.cross(toward, right)
         return right, up, toward
+
+
+#: The default view: 35 degrees round from +x, 20 degrees up, orthographic, fitted.
+DEFAULT_CAMERA = Camera()
 
 
 @dataclass(frozen=True)
