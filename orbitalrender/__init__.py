@@ -12,12 +12,16 @@ from .lattice.sampler import default_box, sample
 from .picture.output import figure_metadata, save_figure, write_report
 from .state.model import State, Term, eigenstate, energy_hartree, real_orbital, superpose
 from .state.notation import parse_state
+from .surface.extract import extract_surface
+from .surface.level import LevelResult, level_for_fraction
 from .surface.model import Surface
+from .surface.topology import Topology, split_components, topology
 
 __all__ = [
     "__version__",
     "State", "Term", "eigenstate", "real_orbital", "superpose", "energy_hartree", "parse_state",
     "Box", "Lattice", "default_box", "sample",
-    "Surface",
+    "Surface", "LevelResult", "level_for_fraction", "extract_surface",
+    "Topology", "topology", "split_components",
     "figure_metadata", "save_figure", "write_report",
 ]

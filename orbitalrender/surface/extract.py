@@ -1,0 +1,306 @@
+"""Surface step, second half: the closed isosurface holding a fraction F, with exact psi at its vertices.
+
+The density |psi|^2 has a double zero on every nodal surface, and a lattice samples
+such a zero badly: the thin gap between two shells, or the nodal plane between two
+lobes, can fall between lattice points and the parts merge.  Marching cubes is
+therefore run on a *signed* field wherever the state allows one:
+
+* psi real up to a global phase alpha (real orbitals, real superpositions, a real user
+  field): f = Re(psi e^{-i alpha}).  The surface |psi|^2 = t is the union of
+  f = +sqrt(t) and f = -sqrt(t), extracted separately, and a node is a sign change of
+  f, which linear interpolation on the lattice resolves however thin the gap.
+* one centre and every term with the same m (complex eigenstates |n l m>):
+  psi = F(r, theta) e^{i m phi} with F real up to a phase; the same is done with
+  f = Re(psi e^{-i (alpha + m phi)}), so the spherical and conical nodes of R_nl and
+  P_l^m are sign changes too.  (The z axis, a node of codimension 2, cannot be a sign
+  change; it is resolved when the tube of low density around it is wider than the
+  lattice spacing.)
+* anything else: |psi|, whose zeros are generically lines, not surfaces.
+
+The test that decides "real up to a phase" is made on the lattice itself: the
+imaginary part left after the rotation must stay below 1e-3 of sqrt(t) everywhere,
+so that the superlevel sets of f and of |psi| differ by less than that.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from scipy import ndimage
+from skimage.measure import marching_cubes
+
+from ..lattice.grid import Box, Lattice
+from ..lattice.sampler import sample
+from ..state.model import State
+from .level import LevelResult, check_fraction, level_for_fraction
+from .model import Surface
+
+__all__ = ["extract_surface", "surface_at_level", "vertex_normals"]
+
+#: Largest imaginary part, relative to sqrt(level), that still counts as "real".
+_REAL_TOLERANCE = 1e-3
+#: Relative margin below the level of the lattice columns next to a nodal z axis.
+_AXIS_MARGIN = 1e-3
+#: Forward-difference step of the exact density gradient, relative to the lattice spacing:
+#: small against the curvature of the surface, large against float64 round-off.
+_GRADIENT_STEP = 1e-4
+
+
+def _signed_field(lattice: Lattice, amplitude: float) -> tuple[np.ndarray, bool]:
+    """float32 field for marching cubes and whether it is signed (see the module notes)."""
+    v = lattice.values
+    k = int(np.argmax(lattice.density()))
+    peak = v.reshape(-1)[k]
+    limit = _REAL_TOLERANCE * amplitude
+    rotate = np.exp(-1j * np.angle(peak))
+    f = np.empty(v.shape, dtype=np.float32)
+    np.multiply(v.real, np.float32(rotate.real), out=f)
+    f -= v.imag * np.float32(rotate.imag)
+    imag_max = float(np.max(np.abs(v.imag * np.float32(rotate.real) + v.real * np.float32(rotate.imag))))
+    if imag_max <= limit:
+        return f, True
+    state = lattice.state
+    if state is not None and state.is_single_centre and len({t.m for t in state.terms}) == 1:
+        m = state.terms[0].m
+        if m != 0 and _remove_azimuthal(lattice, m, k, f, limit):
+            _open_axis(lattice, f, amplitude)
+            return f, True
+    np.abs(v, out=f, casting="same_kind")
+    return f, False
+
+
+def _remove_azimuthal(lattice: Lattice, m: int, peak_index: int, out: np.ndarray,
+                      limit: float) -> bool:
+    """out = Re(psi e^{-i (alpha + m phi)}), slab by slab; False if psi is not of that form."""
+    v = lattice.values
+    centre = lattice.state.centres_a0[0]
+    xs, ys, _ = lattice.axes()
+    dy = (ys - centre[1])[:, None]
+
+    def unwind(i: int) -> np.ndarray:  # e^{-i m phi} on slab i, 1 on the axis
+        w = (xs[i] - centre[0]) - 1j * dy
+        mag = np.abs(w)
+        w = np.where(mag > 0, w / np.where(mag > 0, mag, 1.0), 1.0)
+        return w**m
+
+    i0, j0, k0 = np.unravel_index(peak_index, v.shape)
+    rotate = np.exp(-1j * np.angle(v[i0, j0, k0] * unwind(i0)[j0, 0]))
+    for i in range(v.shape[0]):
+        slab = v[i] * (unwind(i) * rotate).astype(np.complex64)
+        if float(np.max(np.abs(slab.imag))) > limit:
+            return False
+        out[i] = slab.real
+    return True
+
+
+def _open_axis(lattice: Lattice, field: np.ndarray, amplitude: float) -> None:
+    """Keep the z axis through the centre out of the superlevel set.
+
+    For m != 0 every term vanishes on the axis, so the set is a ring around it; when
+    the tube of low density around the axis is thinner than the lattice spacing, the
+    lattice columns next to the axis all lie above the level and the hole would close.
+    Those columns (the four around the axis, or the one on it) are clamped just below
+    the level, which keeps the hole open with a radius of at most one spacing.
+    """
+    centre = lattice.state.centres_a0[0]
+    columns = []
+    for axis in (0, 1):
+        u = (centre[axis] - lattice.origin_a0[axis]) / lattice.spacing_a0[axis]
+        lo = math.floor(u)
+        columns.append([i for i in {lo, math.ceil(u)} if 0 <= i < field.shape[axis]])
+    below = np.float32(amplitude * (1.0 - _AXIS_MARGIN))
+    for i in columns[0]:
+        for j in columns[1]:
+            np.clip(field[i, j], -below, below, out=field[i, j])
+
+
+def _crop(mask_of: np.ndarray, amplitude: float) -> tuple[slice, ...] | None:
+    """Index box around {field >= amplitude} with one point of margin, or None if empty."""
+    above = mask_of >= amplitude
+    box = []
+    for axis in range(3):
+        other = tuple(a for a in range(3) if a != axis)
+        hit = np.flatnonzero(np.any(above, axis=other))
+        if hit.size == 0:
+            return None
+        box.append(slice(max(hit[0] - 1, 0), min(hit[-1] + 2, above.shape[axis])))
+    return tuple(box)
+
+
+def _touches_boundary(field: np.ndarray, amplitude: float) -> bool:
+    faces = (field[0], field[-1], field[:, 0], field[:, -1], field[:, :, 0], field[:, :, -1])
+    return any(float(face.max()) >= amplitude for face in faces)
+
+
+def _march(field: np.ndarray, amplitude: float, lattice: Lattice):
+    """Vertices (a0), outward faces and lattice normals of {field >= amplitude}, or None."""
+    box = _crop(field, amplitude)
+    if box is None:
+        return None
+    verts, faces, normals, _ = marching_cubes(field[box], amplitude, gradient_direction="ascent")
+    offset = np.array([s.start for s in box], dtype=float)
+    spacing = np.asarray(lattice.spacing_a0)
+    verts = np.asarray(lattice.origin_a0) + (verts.astype(np.float64) + offset) * spacing
+    faces = faces.astype(np.int64)
+    if _signed_volume(verts, faces) < 0:  # keep outward (counter-clockwise from outside)
+        faces = faces[:, ::-1].copy()
+    return verts, faces, normals.astype(np.float64)
+
+
+def _signed_volume(verts: np.ndarray, faces: np.ndarray) -> float:
+    a, b, c = verts[faces[:, 0]], verts[faces[:, 1]], verts[faces[:, 2]]
+    return float(np.einsum("ij,ij->", a, np.cross(b, c))) / 6.0
+
+
+def vertex_normals(vertices_a0: np.ndarray, faces: np.ndarray) -> np.ndarray:
+    """Unit vertex normals from the mesh: area-weighted sum of the adjacent face normals.
+
+    Faces are taken as counter-clockwise seen from outside, so the normals point out.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> v = np.array([[0, 0, 0], [1, 0, 0], [0, 1, 0], [0, 0, 1]], float)
+    >>> f = np.array([[0, 2, 1], [0, 1, 3], [0, 3, 2], [1, 2, 3]])
+    >>> bool(np.allclose(vertex_normals(v, f)[3], [0, 0, 1], atol=0.5))
+    True
+    """
+    a, b, c = (vertices_a0[faces[:, i]] for i in range(3))
+    face_n = np.cross(b - a, c - a)  # length = twice the area
+    out = np.zeros_like(vertices_a0, dtype=float)
+    for axis in range(3):
+        for corner in range(3):
+            out[:, axis] += np.bincount(faces[:, corner], weights=face_n[:, axis],
+                                        minlength=len(vertices_a0))
+    norm = np.linalg.norm(out, axis=1, keepdims=True)
+    return out / np.where(norm > 0, norm, 1.0)
+
+
+def _exact_psi_and_normals(state: State, verts: np.ndarray, h_a0: float, fallback: np.ndarray):
+    """psi at the vertices and outward unit normals -grad|psi|^2 / |grad|psi|^2|, both from
+    the analytic state (forward differences of the exact density)."""
+    x, y, z = verts[:, 0], verts[:, 1], verts[:, 2]
+    psi = state.psi(x, y, z)
+    rho = np.abs(psi) ** 2
+    grad = np.stack([state.density(x + h_a0, y, z) - rho, state.density(x, y + h_a0, z) - rho,
+                     state.density(x, y, z + h_a0) - rho], axis=1) / h_a0
+    norm = np.linalg.norm(grad, axis=1, keepdims=True)
+    good = (norm[:, 0] > 0) & np.isfinite(norm[:, 0])
+    normals = np.where(good[:, None], -grad / np.where(good[:, None], norm, 1.0), fallback)
+    return psi, normals
+
+
+def _interpolated_psi(lattice: Lattice, verts: np.ndarray) -> np.ndarray:
+    """Trilinear interpolation of the lattice values at the vertices."""
+    idx = ((verts - np.asarray(lattice.origin_a0)) / np.asarray(lattice.spacing_a0)).T
+    re = ndimage.map_coordinates(lattice.values.real, idx, order=1, mode="nearest")
+    im = ndimage.map_coordinates(lattice.values.imag, idx, order=1, mode="nearest")
+    return re.astype(np.float64) + 1j * im.astype(np.float64)
+
+
+def surface_at_level(lattice: Lattice, level: LevelResult) -> Surface:
+    """The closed surface |psi|^2 = level.level on `lattice`.
+
+    Parameters
+    ----------
+    lattice : Lattice
+        Sampled psi; with ``lattice.state`` set, psi and the normals at the vertices
+        come from the state itself.
+    level : LevelResult
+        From :func:`level_for_fraction`.
+
+    Returns
+    -------
+    Surface
+
+    Raises
+    ------
+    ValueError
+        If no lattice point reaches the level (empty surface) or the superlevel set
+        reaches the edge of the lattice (the surface would be cut open by the box).
+    """
+    amplitude = math.sqrt(level.level)
+    field, signed = _signed_field(lattice, amplitude)
+    parts = []
+    for sign in ((1.0, -1.0) if signed else (1.0,)):
+        if sign < 0:
+            np.negative(field, out=field)
+        if _touches_boundary(field, amplitude):
+            raise ValueError(
+                f"the surface holding {level.fraction_requested:g} of the probability reaches the "
+                "edge of the lattice and would be cut open; use a larger box")
+        part = _march(field, amplitude, lattice)
+        if part is not None:
+            parts.append(part)
+    del field
+    if not parts:
+        raise ValueError(f"no lattice point reaches the level for F = {level.fraction_requested:g}; "
+                         "the surface is empty at this resolution (raise the resolution or F)")
+    offsets = np.cumsum([0] + [len(p[0]) for p in parts[:-1]])
+    verts = np.concatenate([p[0] for p in parts])
+    faces = np.concatenate([p[1] + o for p, o in zip(parts, offsets)])
+    lattice_normals = np.concatenate([p[2] for p in parts])
+    norm = np.linalg.norm(lattice_normals, axis=1, keepdims=True)
+    lattice_normals = np.where(norm > 0, lattice_normals / np.where(norm > 0, norm, 1.0),
+                               vertex_normals(verts, faces))
+    if lattice.state is not None:
+        psi, normals = _exact_psi_and_normals(lattice.state, verts,
+                                              _GRADIENT_STEP * min(lattice.spacing_a0),
+                                              lattice_normals)
+    else:
+        psi, normals = _interpolated_psi(lattice, verts), lattice_normals
+    return Surface(vertices_a0=verts, faces=faces, normals=normals, psi=psi, level=level.level,
+                   fraction_requested=level.fraction_requested,
+                   fraction_enclosed=level.fraction_enclosed, fraction_error=level.fraction_error,
+                   lattice_shape=lattice.shape, spacing_a0=lattice.spacing_a0, state=lattice.state)
+
+
+def extract_surface(source: State | Lattice, fraction: float, resolution: int = 128,
+                    box: Box | None = None, dtype=np.complex64) -> Surface:
+    """The closed surface that encloses probability `fraction`, psi exact at every vertex.
+
+    Parameters
+    ----------
+    source : State or Lattice
+        A state (sampled here with :func:`orbitalrender.lattice.sampler.sample`) or an
+        already sampled lattice.  A lattice that knows its state gets the analytic level
+        and exact vertex psi; a user field gets the lattice level and interpolated psi.
+    fraction : float
+        F in (0, 1): the surface is |psi|^2 = t with P(|psi|^2 >= t) = F.
+    resolution : int
+        Lattice points per axis when `source` is a state.
+    box : Box, optional
+        Lattice cube when `source` is a state (default: :func:`default_box`).
+    dtype : numpy dtype
+        Lattice precision when `source` is a state.
+
+    Returns
+    -------
+    Surface
+        Vertices in a0, outward faces and unit normals, psi at the vertices, the level
+        and the enclosed fraction (computed by quadrature, not from the mesh).
+
+    Raises
+    ------
+    ValueError
+        For F outside (0, 1), an empty surface, or a surface cut by the edge of the box.
+
+    Examples
+    --------
+    >>> from orbitalrender.state.model import eigenstate
+    >>> s = extract_surface(eigenstate(1, 0, 0), 0.9, resolution=32)
+    >>> r = np.linalg.norm(s.vertices_a0, axis=1)      # the 90 % sphere: 2.6612 a0
+    >>> bool(abs(r.mean() - 2.6612) < 0.03)
+    True
+    """
+    fraction = check_fraction(fraction)
+    if isinstance(source, State):
+        lattice = sample(source, resolution=resolution, box=box, dtype=dtype)
+    elif isinstance(source, Lattice):
+        if box is not None:
+            raise ValueError("a box can only be given with a state; a lattice has its own")
+        lattice = source
+    else:
+        raise TypeError(f"expected a State or a Lattice, got {type(source).__name__}")
+    return surface_at_level(lattice, level_for_fraction(lattice, fraction))
