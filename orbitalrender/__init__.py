@@ -10,6 +10,8 @@ __version__ = "0.1.0"
 from .lattice.grid import Box, Lattice
 from .lattice.sampler import default_box, sample
 from .picture.output import figure_metadata, save_figure, write_report
+from .picture.radialplot import radial_figure, radial_marks
+from .picture.section import cross_section, plane, section_figure
 from .state.model import State, Term, eigenstate, energy_hartree, real_orbital, superpose
 from .state.notation import parse_state
 from .surface.extract import extract_surface
@@ -24,4 +26,5 @@ __all__ = [
     "Surface", "LevelResult", "level_for_fraction", "extract_surface",
     "Topology", "topology", "split_components",
     "figure_metadata", "save_figure", "write_report",
+    "plane", "cross_section", "section_figure", "radial_figure", "radial_marks",
 ]

@@ -1,0 +1,116 @@
+"""Tests of the radial plots (orbitalrender.picture.radialplot) against closed forms and sympy."""
+
+import math
+
+import numpy as np
+import pytest
+from scipy.optimize import brentq
+from sympy import lambdify, symbols
+from sympy.physics.hydrogen import R_nl
+
+from orbitalrender.picture.radialplot import draw_radial, radial_figure, radial_marks
+from orbitalrender.state.model import eigenstate, real_orbital, superpose
+from orbitalrender.state.notation import parse_state
+from orbitalrender.state.units import a0_to
+
+
+def _vertical_lines(ax):
+    """x positions of the axvline artists (constant-x lines spanning the axes)."""
+    out = []
+    for line in ax.lines:
+        x = np.asarray(line.get_xdata(), dtype=float)
+        if len(x) == 2 and x[0] == x[1] and tuple(line.get_ydata()) == (0, 1):
+            out.append(float(x[0]))
+    return out
+
+
+def test_3s_node_radii_are_the_closed_form_roots():
+    # R_30 ~ (27 - 18 r + 2 r^2) e^{-r/3} (closed form, r in a0): nodes at (9 -+ 3 sqrt 3)/2 a0.
+    marks = radial_marks(eigenstate(3, 0, 0))
+    expected = [(9 - 3 * math.sqrt(3)) / 2, (9 + 3 * math.sqrt(3)) / 2]
+    np.testing.assert_allclose(marks.node_radii_a0, expected, rtol=1e-10)
+    import matplotlib.figure
+    ax = matplotlib.figure.Figure().add_subplot()
+    draw_radial(ax, [eigenstate(3, 0, 0, label="3s")], "R")
+    xs = _vertical_lines(ax)
+    for r in expected:
+        assert min(abs(x - r) for x in xs) < 1e-9
+    # the open circles sit on R = 0 at the nodes
+    (circles,) = [ln for ln in ax.lines if ln.get_marker() == "o"]
+    np.testing.assert_allclose(circles.get_xdata(), expected, rtol=1e-10)
+    np.testing.assert_allclose(circles.get_ydata(), 0.0)
+
+
+@pytest.mark.parametrize("n, Z", [(2, 1.0), (3, 1.0), (2, 2.0), (4, 3.0)])
+def test_most_probable_radius_of_l_n_minus_1_is_n2_over_Z(n, Z):
+    # For l = n - 1, r^2 R^2 ~ r^{2n} e^{-2Zr/n}, largest at r = n^2 a0 / Z (closed form).
+    marks = radial_marks(eigenstate(n, n - 1, 0, Z=Z))
+    assert marks.most_probable_a0 == pytest.approx(n * n / Z, rel=1e-8)
+    assert marks.node_radii_a0 == ()
+
+
+def test_2p_most_probable_radius_is_marked_in_angstrom():
+    # 4 a0 in angstrom with the CODATA Bohr radius (scipy.constants via a0_to)
+    fig, marks = radial_figure([real_orbital(2, 1, 1, label="2px")], ["density"], units="angstrom")
+    ax = fig.axes[0]
+    r_mp = 4.0 * a0_to("angstrom")
+    assert min(abs(x - r_mp) for x in _vertical_lines(ax)) < 1e-7
+    (peak,) = [ln for ln in ax.lines if ln.get_marker() == "v"]
+    assert peak.get_xdata()[0] == pytest.approx(r_mp, rel=1e-8)
+    # the density curve in 1/angstrom is still normalised: int r^2 R^2 dr = P(r < r_max) ~ 1
+    curve = ax.lines[0]
+    x, y = np.asarray(curve.get_xdata()), np.asarray(curve.get_ydata())
+    assert np.trapezoid(y, x) == pytest.approx(1.0, abs=2e-3)
+
+
+def test_radius_holding_F_for_1s_matches_the_closed_form():
+    # 1s: P(r < x) = 1 - e^{-2x}(1 + 2x + 2x^2) (closed form)
+    F = 0.75
+    x = brentq(lambda r: 1 - math.exp(-2 * r) * (1 + 2 * r + 2 * r * r) - F, 1e-6, 40, xtol=1e-14)
+    fig, marks = radial_figure([eigenstate(1, 0, 0, label="1s")], ["cumulative"], fraction=F)
+    assert marks[0].holding_a0 == pytest.approx(x, rel=1e-10)
+    ax = fig.axes[0]
+    (square,) = [ln for ln in ax.lines if ln.get_marker() == "s"]
+    assert (square.get_xdata()[0], square.get_ydata()[0]) == pytest.approx((x, F))
+    curve = ax.lines[0]
+    r, p = np.asarray(curve.get_xdata()), np.asarray(curve.get_ydata())
+    np.testing.assert_allclose(p, 1 - np.exp(-2 * r) * (1 + 2 * r + 2 * r * r), atol=1e-12)
+
+
+def test_R_curves_match_sympy():
+    # sympy.physics.hydrogen.R_nl(n, l, r, Z) as the reference radial function
+    r_ = symbols("r", positive=True)
+    states = [eigenstate(3, 1, -1, label="3,1,-1"), real_orbital(4, 2, 2, Z=2.0, label="4dx2-y2 (Z=2)")]
+    fig, _ = radial_figure(states, ["R"])
+    ax = fig.axes[0]
+    curves = [ln for ln in ax.lines if ln.get_label() in ("3,1,-1", "4dx2-y2 (Z=2)")]
+    for line, (n, l, Z) in zip(curves, [(3, 1, 1), (4, 2, 2)]):
+        ref = lambdify(r_, R_nl(n, l, r_, Z), "numpy")
+        x = np.asarray(line.get_xdata())
+        np.testing.assert_allclose(line.get_ydata(), ref(x), atol=1e-12)
+    labels = [t.get_text() for t in fig.legends[0].get_texts()]
+    assert labels == ["3,1,-1", "4dx2-y2 (Z=2)"]
+
+
+def test_shell_combinations_are_allowed_others_not():
+    # any combination within one (n, l) on one centre has radial function R_nl
+    mix = superpose([(1, eigenstate(3, 2, 2)), (1j, eigenstate(3, 2, -1))], label="mix")
+    assert radial_marks(mix).n == 3
+    with pytest.raises(ValueError, match="one \\(n, l\\) shell"):
+        radial_marks(parse_state("1s + 2pz"))
+    with pytest.raises(ValueError, match="one \\(n, l\\) shell"):
+        radial_figure([parse_state("1s@(0,0,-1) + 1s@(0,0,1)")])
+    with pytest.raises(ValueError, match="unknown radial quantity"):
+        radial_figure([eigenstate(1, 0, 0)], ["psi"])
+    with pytest.raises(ValueError, match="fraction"):
+        radial_marks(eigenstate(1, 0, 0), 1.0)
+
+
+def test_all_panels_share_the_radial_axis():
+    fig, marks = radial_figure([parse_state("3s"), parse_state("3pz")])
+    assert len(fig.axes) == 3
+    limits = {ax.get_xlim() for ax in fig.axes}
+    assert len(limits) == 1
+    assert fig.axes[-1].get_xlabel() == "$r$ ($a_0$)"
+    # 3p: one radial node, at 6 a0 (R_31 ~ r (6 - r) e^{-r/3}, closed form)
+    np.testing.assert_allclose(marks[1].node_radii_a0, [6.0], rtol=1e-10)
