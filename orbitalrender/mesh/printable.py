@@ -36,13 +36,12 @@ from dataclasses import asdict, dataclass, field
 
 import numpy as np
 import trimesh
-from scipy.interpolate import RegularGridInterpolator
 from scipy.spatial import cKDTree
-from skimage.measure import marching_cubes
 
 from ..errors import UserInputError
 from ..lattice.grid import Lattice
 from ..picture.colormap import real_rotation
+from ..surface.extract import _interpolated_psi, _march, _touches_boundary, vertex_normals
 from ..surface.model import Surface
 from .export import SUPPORT_RGBA, face_components, submesh
 
@@ -71,6 +70,8 @@ DEFAULT_MIN_GAP_MM = 0.5
 DEFAULT_STRUT_FRACTION = 0.05
 #: Facets around a strut or disc (our choice: smooth at print sizes of a few centimetres).
 _SECTIONS = 32
+#: Diameter of the ball at a strut junction relative to the strut (our choice: covers the joint).
+_JOINT_RATIO = 1.5
 
 
 @dataclass(frozen=True)
@@ -108,7 +109,8 @@ class PrintOptions:
 
 @dataclass(frozen=True)
 class Support:
-    """A strut (``kind`` "axial" or "radial") or the base, in the model's final coordinates (mm)."""
+    """A strut (``kind`` "axial" or "radial"), a junction ball ("joint") or the base ("disc",
+    "plate"), in the model's final coordinates (mm)."""
 
     kind: str
     start_mm: tuple[float, float, float]
@@ -330,6 +332,12 @@ def make_printable(mesh_mm: trimesh.Trimesh, options: PrintOptions = PrintOption
         z_bottom = None
     supports = _plan_struts(parts, axis_xy, diameter, z_bottom)
     pieces.extend(_strut(np.array(s.start_mm), np.array(s.end_mm), s.diameter_mm) for s in supports)
+    # a ball where radial struts leave the axis, so no two cylinder walls meet at a tangent
+    joints = {s.start_mm for s in supports if s.kind == "radial"}
+    for centre in joints:
+        supports.append(Support("joint", centre, centre, _JOINT_RATIO * diameter))
+        ball = trimesh.creation.icosphere(2, radius=_JOINT_RATIO * diameter / 2)
+        pieces.append(ball.apply_translation(centre))
     solid = _union(pieces)
     if options.cutaway:
         keep = trimesh.creation.box(extents=(4 * size, 2 * size, 4 * size))
@@ -409,7 +417,7 @@ def require_single_solid(mesh: trimesh.Trimesh) -> None:
 
 
 def _first_hits(mesh: trimesh.Trimesh, origins: np.ndarray, directions: np.ndarray, length: float,
-                facing: float = 0.5) -> np.ndarray:
+                facing: float = 0.5, faces_allowed: np.ndarray | None = None) -> np.ndarray:
     """Distance along each unit ray to the first triangle of `mesh` within `length` (inf if none)
     that faces along the ray's line (|cos| between its normal and the ray >= `facing`).
 
@@ -419,7 +427,7 @@ def _first_hits(mesh: trimesh.Trimesh, origins: np.ndarray, directions: np.ndarr
     faces.  Segments of bounded length keep the candidate sets small, unlike whole rays.
     The `facing` test (0.5, i.e. within 60 degrees: our choice) keeps the wall across
     from a point and skips faces met at a grazing angle, as in the inside corner where
-    a strut meets a lobe.
+    a strut meets a lobe.  `faces_allowed` (bool per face) restricts the faces that count.
 
     References
     ----------
@@ -445,6 +453,8 @@ def _first_hits(mesh: trimesh.Trimesh, origins: np.ndarray, directions: np.ndarr
     t = np.einsum("ij,ij->i", e2, q) * inv
     tol = 1e-9
     facing_ok = np.abs(np.einsum("ij,ij->i", mesh.face_normals[ids], d)) >= facing
+    if faces_allowed is not None:
+        facing_ok &= faces_allowed[ids]
     hit = ok & facing_ok & (u >= -tol) & (v >= -tol) & (u + v <= 1 + tol) & (t > 0) & (t <= length)
     distance = np.full(len(origins), np.inf)
     np.minimum.at(distance, ray[hit], t[hit])
@@ -455,7 +465,8 @@ def thin_spots(mesh: trimesh.Trimesh, limit_mm: float, kind: str = "wall", sampl
                search_factor: float = 3.0) -> ThinSpots:
     """Sample up to `samples` vertices and measure the wall (ray along -normal) or the gap
     (ray along +normal) to the next surface, up to `search_factor` * `limit_mm`; report
-    those under `limit_mm`.
+    those under `limit_mm`.  Vertices with a NaN ``phase`` attribute (struts, base) are
+    not sampled, and gaps are measured to orbital faces only.
 
     ``minimum_mm`` is the thinnest wall (narrowest gap) found within the search length,
     None if every sampled wall is thicker than that.
@@ -470,13 +481,21 @@ def thin_spots(mesh: trimesh.Trimesh, limit_mm: float, kind: str = "wall", sampl
     """
     if kind not in ("wall", "gap"):
         raise ValueError(f"kind must be 'wall' or 'gap', got {kind!r}")
-    count = min(samples, len(mesh.vertices))
-    index = np.unique(np.linspace(0, len(mesh.vertices) - 1, count).astype(np.int64))
+    # only the orbital is checked: struts and base (NaN phase) are sized by construction
+    phase = mesh.vertex_attributes.get("phase")
+    orbital = (np.isfinite(phase) if phase is not None and len(phase) == len(mesh.vertices)
+               else np.ones(len(mesh.vertices), bool))
+    candidates = np.flatnonzero(orbital)
+    count = min(samples, len(candidates))
+    index = candidates[np.unique(np.linspace(0, len(candidates) - 1, count).astype(np.int64))]
+    # a gap counts between two orbital faces only, not between the orbital and a strut
+    allowed = np.all(orbital[mesh.faces], axis=1) if kind == "gap" else None
     normals = mesh.vertex_normals[index]
     sign = -1.0 if kind == "wall" else 1.0
     eps = 1e-5 * float(np.max(mesh.extents))  # start just off the surface, clear of its own faces
     origins = mesh.vertices[index] + sign * eps * normals
-    distance = _first_hits(mesh, origins, sign * normals, search_factor * limit_mm) + eps
+    distance = _first_hits(mesh, origins, sign * normals, search_factor * limit_mm,
+                           faces_allowed=allowed) + eps
     under = np.flatnonzero(distance < limit_mm)
     worst = under[np.argsort(distance[under])][:20]
     finite = distance[np.isfinite(distance)]
@@ -490,8 +509,9 @@ def split_by_sign(mesh: trimesh.Trimesh, psi: np.ndarray) -> dict[str, trimesh.T
 
     Each closed component has one sign (psi cannot change sign on a connected piece of
     {|psi|^2 >= level} without passing through zero); the global phase is removed
-    first with :func:`~orbitalrender.picture.colormap.real_rotation`.  A sign with no
-    component is left out.
+    first with :func:`~orbitalrender.picture.colormap.real_rotation`, taken with a
+    non-negative real part so that a psi that is real as given keeps its own sign.
+    A sign with no component is left out.
 
     Parameters
     ----------
@@ -499,7 +519,10 @@ def split_by_sign(mesh: trimesh.Trimesh, psi: np.ndarray) -> dict[str, trimesh.T
         The surface mesh, vertices in the same order as `psi`.
     psi : ndarray, complex, (V,)
     """
-    real = (np.asarray(psi) * np.conj(real_rotation(psi))).real
+    u = real_rotation(psi)
+    if u.real < 0 or (u.real == 0 and u.imag < 0):  # psi = +-|psi| as given keeps its own sign
+        u = -u
+    real = (np.asarray(psi) * np.conj(u)).real
     groups: dict[str, list[np.ndarray]] = {"positive": [], "negative": []}
     for faces in face_components(mesh):
         vertices = np.unique(mesh.faces[faces])
@@ -517,7 +540,8 @@ def phase_band_surfaces(lattice: Lattice, level: float, bands: int) -> list[Surf
 
     and marching cubes on the smaller of the two (both in a0^-3/2, continuous) gives
     its closed boundary: the density surface within the band plus the cut faces
-    where the phase reaches the band's edges.  psi at the vertices is evaluated
+    where the phase reaches the band's edges (marching cubes rounds the sharp edge
+    where the two meet by about one lattice spacing).  psi at the vertices is evaluated
     exactly when the lattice has a state, else interpolated linearly.
 
     Parameters
@@ -541,31 +565,23 @@ def phase_band_surfaces(lattice: Lattice, level: float, bands: int) -> list[Surf
     magnitude = np.abs(values).astype(np.float32)
     cut = np.float32(math.cos(math.pi / bands))
     inside = magnitude - np.float32(math.sqrt(level))
-    spacing = np.array(lattice.spacing_a0)
-    origin = np.array(lattice.origin_a0)
+    # march a hair above zero: on a lattice symmetric about the axis the band edges
+    # (phase = c_k +- pi / bands) pass exactly through lattice points, where a field value
+    # equal to the level makes marching cubes put several vertices on one point
+    threshold = float(np.float32(1e-4 * math.sqrt(level)))
     out = []
     for k in range(bands):
         centre = 2 * math.pi * k / bands
         band = (values * np.complex64(np.exp(-1j * centre))).real - magnitude * cut
         field_ = np.minimum(inside, band.astype(np.float32))
-        if not np.any(field_ > 0):
+        if _touches_boundary(field_, threshold):
+            raise UserInputError("the surface reaches the edge of the lattice; use a larger --box")
+        part = _march(field_, threshold, lattice)  # the surface step's marching cubes, outward faces
+        if part is None:
             continue
-        # pad with "outside" so every body closes at the lattice edge
-        padded = np.pad(field_, 1, constant_values=-1.0)
-        vertices, faces, normals, _ = marching_cubes(padded, 0.0, spacing=tuple(spacing),
-                                                     gradient_direction="ascent")
-        vertices = vertices - spacing + origin
+        vertices, faces, _ = part
         psi = (lattice.state.psi(*vertices.T) if lattice.state is not None
-               else _interpolate(lattice, vertices))
-        mesh = trimesh.Trimesh(vertices, faces, process=False)
-        if mesh.volume < 0:
-            faces = faces[:, ::-1]
-            normals = -normals
-        out.append(Surface(vertices, faces.astype(np.int64), -normals, np.asarray(psi, complex), level,
-                           None, None, None, lattice.shape, lattice.spacing_a0, lattice.state))
+               else _interpolated_psi(lattice, vertices))
+        out.append(Surface(vertices, faces, vertex_normals(vertices, faces), np.asarray(psi, complex),
+                           level, None, None, None, lattice.shape, lattice.spacing_a0, lattice.state))
     return out
-
-
-def _interpolate(lattice: Lattice, points_a0: np.ndarray) -> np.ndarray:
-    return RegularGridInterpolator(lattice.axes(), lattice.values, bounds_error=False,
-                                   fill_value=0.0)(points_a0)
