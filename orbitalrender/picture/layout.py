@@ -30,6 +30,7 @@ from .render3d import (
     compose_figure,
     fit_geometry,
     frame_camera,
+    has_nodal_axis,
     render_surfaces,
     surface_title,
 )
@@ -51,7 +52,7 @@ def default_columns(count: int) -> int:
 
 
 def shared_cameras(groups: Sequence[Sequence[Surface]], camera: Camera = DEFAULT_CAMERA, aspect: float = 1.0,
-                   shared_target: bool = False, nodal_axis: bool = False) -> list[Camera]:
+                   shared_target: bool = False, nodal_axis: bool | Sequence[bool] = False) -> list[Camera]:
     """One camera per panel, all with the same half-extent (and eye distance).
 
     Parameters
@@ -65,15 +66,16 @@ def shared_cameras(groups: Sequence[Sequence[Surface]], camera: Camera = DEFAULT
     shared_target : bool
         True: every panel looks at the centre of all surfaces together (time strips);
         False: each at its own.
-    nodal_axis : bool
-        Leave room for the nodal axis line.
+    nodal_axis : bool or sequence of bool
+        Leave room for the nodal axis line (in all panels, or per panel).
 
     Returns
     -------
     list of Camera
     """
     lists = [_as_list(g) for g in groups]
-    extra = [_axis_segment(g) if nodal_axis else None for g in lists]
+    axis = [nodal_axis] * len(lists) if isinstance(nodal_axis, bool) else list(nodal_axis)
+    extra = [_axis_segment(g) if a else None for g, a in zip(lists, axis)]
     if shared_target and camera.target_a0 is None:
         pts = np.concatenate([s.vertices_a0 for g in lists for s in g]
                              + [e for e in extra if e is not None])
@@ -127,12 +129,15 @@ def small_multiples(panels: Sequence[Surface | Sequence[Surface]], titles: Seque
     nrows = math.ceil(len(groups) / ncols)
     geometry = fit_geometry(width_px, height_px, ncols, nrows, True, legend or scale_bar, dpi)
     pw, ph = geometry.panel_px
-    cameras = shared_cameras(groups, camera, pw / ph, shared_target,
-                             bool(render_options.get("nodal_axis", False)))
+    # the nodal axis is drawn in the panels whose state has one
+    want_axis = bool(render_options.pop("nodal_axis", False))
+    axis = [want_axis and has_nodal_axis(g[0]) for g in groups]
+    cameras = shared_cameras(groups, camera, pw / ph, shared_target, axis)
     render_options.pop("background", None)
     background = None if transparent else (1.0, 1.0, 1.0)
-    renders: list[Render] = [render_surfaces(g, pw, ph, camera=c, background=background, **render_options)
-                             for g, c in zip(groups, cameras)]
+    renders: list[Render] = [render_surfaces(g, pw, ph, camera=c, background=background, nodal_axis=a,
+                                             **render_options)
+                             for g, c, a in zip(groups, cameras, axis)]
     fig = compose_figure(renders, geometry, titles, units, legend, scale_bar, transparent)
     return fig, renders
 

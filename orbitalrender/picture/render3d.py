@@ -51,7 +51,7 @@ import numba
 import numpy as np
 
 from ..surface.model import Surface
-from .colormap import PHASE_SCHEMES, phase_to_rgb, real_rotation
+from .colormap import PHASE_SCHEMES, linear_to_srgb, phase_to_rgb, real_rotation, srgb_to_linear
 from .raster import Fragments, rasterize
 
 __all__ = [
@@ -65,6 +65,7 @@ __all__ = [
     "frame_camera",
     "render_surfaces",
     "nodal_axis_centre",
+    "has_nodal_axis",
     "FigureGeometry",
     "fit_geometry",
     "figure_fontsize",
@@ -76,8 +77,8 @@ __all__ = [
 PROJECTIONS = ("orthographic", "perspective")
 #: zoom 1 leaves this much room around the surface: its extent times 1.12 fills the shorter side.
 _FIT_MARGIN = 1.12
-#: The nodal axis is drawn this fraction of the surface's z-extent past each end.
-_AXIS_OVERHANG = 0.12
+#: The nodal axis is drawn past each end of the surface by this fraction of its largest extent.
+_AXIS_OVERHANG = 0.15
 #: Shading works on this many pixels at a time, which bounds its temporaries (~0.3 GiB).
 _CHUNK_PIXELS = 1 << 20
 _ZOOM_RANGE = (0.05, 50.0)
@@ -320,14 +321,46 @@ def nodal_axis_centre(surface: Surface) -> tuple[float, float, float]:
     return state.centres_a0[0]
 
 
+def has_nodal_axis(surface: Surface) -> bool:
+    """True when :func:`nodal_axis_centre` would find an axis."""
+    try:
+        nodal_axis_centre(surface)
+    except ValueError:
+        return False
+    return True
+
+
+def _sign_rotation(surfaces: list[Surface]) -> complex:
+    """Global phase to remove before the sign map.
+
+    psi that is already real (a real orbital) keeps its own sign convention (u = 1).
+    Otherwise :func:`real_rotation` of psi on and inside the surfaces (between the
+    vertices and the image centre), where |psi| differs from point to point: on the
+    surface alone |psi| is the same everywhere and would not fix the sign.
+    """
+    psi = np.concatenate([s.psi for s in surfaces])
+    state = surfaces[0].state
+    if state is not None:
+        verts = np.concatenate([s.vertices_a0 for s in surfaces])
+        verts = verts[:: max(1, len(verts) // 2000)]
+        centre = 0.5 * (verts.min(axis=0) + verts.max(axis=0))
+        shrink = np.linspace(0.0, 1.0, 9)[:, None, None]
+        points = (centre + shrink * (verts - centre)).reshape(-1, 3)
+        psi = state.psi(*points.T)
+    scale = float(np.max(np.abs(psi))) if len(psi) else 0.0
+    if scale == 0 or np.max(np.abs(psi.imag)) <= 1e-9 * scale:
+        return 1.0 + 0.0j
+    return real_rotation(psi)
+
+
 def _axis_segment(surfaces: list[Surface]) -> np.ndarray:
     """End points (2, 3) of the dashed nodal axis."""
     centre = np.array(nodal_axis_centre(surfaces[0]))
     if any(nodal_axis_centre(s) != tuple(centre) for s in surfaces[1:]):
         raise ValueError("the surfaces drawn together have nodal axes at different centres")
-    z = np.concatenate([s.vertices_a0[:, 2] for s in surfaces])
-    lo, hi = float(z.min()), float(z.max())
-    pad = _AXIS_OVERHANG * (hi - lo)
+    pts = np.concatenate([s.vertices_a0 for s in surfaces])
+    lo, hi = float(pts[:, 2].min()), float(pts[:, 2].max())
+    pad = _AXIS_OVERHANG * float(np.max(pts.max(axis=0) - pts.min(axis=0)))
     return np.array([[centre[0], centre[1], lo - pad], [centre[0], centre[1], hi + pad]])
 
 
@@ -425,18 +458,6 @@ def _projection(camera: Camera, width: int, height: int) -> _Projection:
     return _Projection(camera, width, height, f, np.array(camera.target_a0), right, up, toward)
 
 
-def _to_linear(srgb: np.ndarray) -> np.ndarray:
-    """sRGB -> linear light (IEC 61966-2-1)."""
-    srgb = np.asarray(srgb, dtype=float)
-    return np.where(srgb <= 0.04045, srgb / 12.92, ((srgb + 0.055) / 1.055) ** 2.4)
-
-
-def _to_srgb(linear: np.ndarray) -> np.ndarray:
-    """linear light -> sRGB (IEC 61966-2-1), clipped to [0, 1]."""
-    linear = np.clip(linear, 0.0, 1.0)
-    return np.where(linear <= 0.0031308, 12.92 * linear, 1.055 * linear ** (1 / 2.4) - 0.055)
-
-
 def _unit(v) -> np.ndarray:
     v = np.asarray(v, dtype=float)
     return v / np.linalg.norm(v, axis=-1, keepdims=True)
@@ -450,7 +471,7 @@ _SHADE_LUT_SIZE = 4096
 @cache
 def _linear_lut(scheme: str) -> np.ndarray:
     phases = 2 * np.pi * np.arange(_SHADE_LUT_SIZE) / _SHADE_LUT_SIZE
-    return np.ascontiguousarray(_to_linear(phase_to_rgb(phases, scheme)))
+    return np.ascontiguousarray(srgb_to_linear(phase_to_rgb(phases, scheme)))
 
 
 def _light_params(lighting: Lighting, proj: _Projection) -> np.ndarray:
@@ -563,7 +584,7 @@ def _downsample(img, alpha, ss):  # pragma: no cover - compiled
 
 
 #: One-entry table for caps of a user field, whose psi is not known off the mesh: mid grey.
-_GREY_LUT = _to_linear(np.full((1, 3), 0.6))
+_GREY_LUT = srgb_to_linear(np.full((1, 3), 0.6))
 
 
 @dataclass(frozen=True, eq=False)
@@ -771,8 +792,7 @@ def render_surfaces(surfaces: Surface | Sequence[Surface], width_px: int = 800, 
     segment = _axis_segment(surfaces) if nodal_axis else None
     camera = frame_camera(surfaces, camera, width_px / height_px, segment)
     proj = _projection(camera, width_px * ss, height_px * ss)
-    psi_all = np.concatenate([s.psi for s in surfaces])
-    rotation = real_rotation(psi_all) if phase_map == "sign" else 1.0 + 0.0j
+    rotation = _sign_rotation(surfaces) if phase_map == "sign" else 1.0 + 0.0j
     planes = cutaway.world_planes(camera, camera.target_a0) if cutaway is not None else None
     if cap_psi is None and surfaces[0].state is not None:
         cap_psi = surfaces[0].state.psi
@@ -802,7 +822,7 @@ def render_surfaces(surfaces: Surface | Sequence[Surface], width_px: int = 800, 
     if segment is not None:
         line = _axis_layer(segment, proj, ss)
         on_top = line < depth
-        lin[on_top] = _to_linear(_AXIS_RGB)
+        lin[on_top] = srgb_to_linear(_AXIS_RGB)
         depth = np.where(on_top, line, depth)
     alpha = np.isfinite(depth).astype(np.float32)
     premult = lin  # opaque: alpha is 0 or 1 and the empty pixels are black already
@@ -822,12 +842,12 @@ def render_surfaces(surfaces: Surface | Sequence[Surface], width_px: int = 800, 
     # antialiasing: box filter over the samples, in linear light
     premult, alpha = _downsample(premult, alpha, ss)
     if background is not None:
-        bg = _to_linear(np.asarray(background, dtype=float)).astype(np.float32)
+        bg = srgb_to_linear(np.asarray(background, dtype=float)).astype(np.float32)
         colour = premult + (1.0 - alpha)[..., None] * bg
         alpha = np.ones_like(alpha)
     else:
         colour = premult / np.where(alpha > 0, alpha, 1.0)[..., None]
-    rgba = np.concatenate([_to_srgb(colour), alpha[..., None]], axis=2).astype(np.float32)
+    rgba = np.concatenate([linear_to_srgb(colour), alpha[..., None]], axis=2).astype(np.float32)
     labels = tuple(dict.fromkeys(s.state.label for s in surfaces if s.state is not None))
     return Render(rgba, proj.px_per_a0 / ss, camera, phase_map, labels)
 
