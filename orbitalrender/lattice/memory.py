@@ -7,13 +7,30 @@ import os
 import numpy as np
 
 __all__ = ["MemoryLimitError", "available_bytes", "sampling_bytes", "largest_resolution",
-           "require_lattice_memory", "require_bytes"]
+           "require_lattice_memory", "require_bytes", "surface_bytes_per_point", "surface_bytes",
+           "render_bytes", "require_surface_memory", "require_render_memory"]
 
 # Bytes per lattice point that the sampler needs on top of the output array:
 # the octant (1/8 of the output) plus the chunk temporaries, which are bounded
 # by the chunk size, not by N (see sampler._CHUNK_POINTS).
 _OCTANT_FRACTION = 0.125
 _SAFETY = 0.8  # use at most 80 % of what the operating system says is free (common practice)
+# Work of the surface step per lattice point, beyond the lattice: the float32 field that
+# marching cubes reads, plus one temporary as wide as the real part of the values (the
+# density whose maximum fixes the phase, then the imaginary-part check).  Measured with
+# tracemalloc (benchmarks/big_lattice.py prints it): 12.0 B for complex64, 20.0 B for
+# complex128, independent of N and of the state; the boolean crop mask fits in the same peak.
+_SURFACE_FIELD_BYTES = 4
+# Renderer buffers per supersampled pixel: z-buffer (float64), triangle index (int32),
+# barycentric weights (3 float32), linear colour (3 float32), depth, alpha and masks.
+# Measured with tracemalloc at 800 x 600 px: 37 B without a cutaway, 87 B with one (the
+# cap rays and a copy of the depth); rounded up to leave room for a second layer.
+_RENDER_BYTES_PER_SAMPLE = 48
+_RENDER_CUTAWAY_BYTES_PER_SAMPLE = 96
+# ... and per output pixel: the downsampled colour, sRGB conversion, RGBA image and the
+# matplotlib canvas of the composed figure (measured about 110 B at 400 x 300 px, ss = 1).
+_RENDER_BYTES_PER_PIXEL = 160
+_GIB = 2**30
 
 
 class MemoryLimitError(MemoryError):
@@ -53,27 +70,89 @@ def largest_resolution(budget_bytes: int, bytes_for=sampling_bytes, **kwargs) ->
     return lo
 
 
+def surface_bytes_per_point(dtype=np.complex64) -> int:
+    """Bytes per lattice point that the surface step needs on top of the lattice itself.
+
+    Examples
+    --------
+    >>> surface_bytes_per_point(np.complex64), surface_bytes_per_point(np.complex128)
+    (12, 20)
+    """
+    return np.dtype(dtype).itemsize + _SURFACE_FIELD_BYTES
+
+
+def surface_bytes(shape: tuple[int, ...], dtype=np.complex64) -> int:
+    """Peak bytes of the surface step on a lattice of `shape` and `dtype`, lattice excluded."""
+    return int(np.prod(shape, dtype=np.float64) * surface_bytes_per_point(dtype))
+
+
+def render_bytes(width_px: int, height_px: int, supersample: int = 3, cutaway: bool = False) -> int:
+    """Peak bytes of one shaded render of `width_px` x `height_px` at `supersample`^2 samples
+    per pixel, composed into a figure (the surface mesh itself excluded).
+
+    Examples
+    --------
+    >>> round(render_bytes(900, 800, 3) / 2**20)
+    406
+    """
+    pixels = float(width_px) * float(height_px)
+    per_sample = _RENDER_CUTAWAY_BYTES_PER_SAMPLE if cutaway else _RENDER_BYTES_PER_SAMPLE
+    return int(pixels * (supersample**2 * per_sample + _RENDER_BYTES_PER_PIXEL))
+
+
+def _budget() -> int:
+    return int(available_bytes() * _SAFETY)
+
+
+def require_surface_memory(shape: tuple[int, ...], dtype=np.complex64) -> None:
+    """Raise MemoryLimitError if the surface step on an existing lattice would not fit now."""
+    require_bytes(surface_bytes(shape, dtype),
+                  f"the surface of a {'x'.join(map(str, shape))} lattice")
+
+
+def require_render_memory(width_px: int, height_px: int, supersample: int = 3,
+                          cutaway: bool = False) -> None:
+    """Raise MemoryLimitError, naming the estimate and what would fit, if a render of this
+    size would not fit now."""
+    budget = _budget()
+    needed = render_bytes(width_px, height_px, supersample, cutaway)
+    if needed <= budget:
+        return
+    fits = [k for k in range(supersample - 1, 0, -1)
+            if render_bytes(width_px, height_px, k, cutaway) <= budget]
+    scale = (budget / needed) ** 0.5
+    hint = (f"supersampling {fits[0]} fits" if fits else
+            f"about {int(width_px * scale)} x {int(height_px * scale)} px fits")
+    raise MemoryLimitError(
+        f"a {width_px} x {height_px} px render at supersampling {supersample} needs about "
+        f"{needed / _GIB:.1f} GiB but only {budget / _GIB:.1f} GiB can be used; {hint}")
+
+
 def require_lattice_memory(resolution: int, dtype=np.complex64, chunk_bytes: int = 0,
-                           extra_bytes_per_point: float = 0.0) -> None:
+                           extra_bytes_per_point: float = 0.0, what: str = "lattice") -> None:
     """Raise MemoryLimitError, naming the estimate and the largest N that fits, if an
-    N^3 lattice (plus `extra_bytes_per_point` for later steps) would not fit now."""
+    N^3 lattice (plus `extra_bytes_per_point` for later steps) would not fit now.
+
+    `what` names the request in the message, e.g. "lattice with its surface" with
+    ``extra_bytes_per_point=surface_bytes_per_point(dtype)``.
+    """
 
     def need(n: int, dtype=dtype, chunk_bytes=chunk_bytes) -> int:
         return sampling_bytes(n, dtype, chunk_bytes) + int(extra_bytes_per_point * n**3)
 
-    budget = int(available_bytes() * _SAFETY)
+    budget = _budget()
     needed = need(resolution)
     if needed > budget:
         largest = largest_resolution(budget, need)
         raise MemoryLimitError(
-            f"a {resolution}^3 lattice needs about {needed / 2**30:.1f} GiB but only "
-            f"{budget / 2**30:.1f} GiB can be used; the largest resolution that fits is {largest}")
+            f"a {resolution}^3 {what} needs about {needed / _GIB:.1f} GiB but only "
+            f"{budget / _GIB:.1f} GiB can be used; the largest resolution that fits is {largest}")
 
 
 def require_bytes(needed_bytes: int, what: str) -> None:
     """Raise MemoryLimitError, naming `what` and the estimate, if `needed_bytes` would not fit now."""
-    budget = int(available_bytes() * _SAFETY)
+    budget = _budget()
     if needed_bytes > budget:
         raise MemoryLimitError(
-            f"{what} needs about {needed_bytes / 2**30:.1f} GiB but only "
-            f"{budget / 2**30:.1f} GiB can be used")
+            f"{what} needs about {needed_bytes / _GIB:.1f} GiB but only "
+            f"{budget / _GIB:.1f} GiB can be used")
