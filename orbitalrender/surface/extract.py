@@ -31,6 +31,7 @@ from scipy import ndimage
 from skimage.measure import marching_cubes
 
 from ..lattice.grid import Box, Lattice
+from ..lattice.memory import require_lattice_memory, require_surface_memory, surface_bytes_per_point
 from ..lattice.sampler import sample
 from ..state.model import State
 from .level import LevelResult, check_fraction, level_for_fraction
@@ -45,6 +46,8 @@ _AXIS_MARGIN = 1e-3
 #: Forward-difference step of the exact density gradient, relative to the lattice spacing:
 #: small against the curvature of the surface, large against float64 round-off.
 _GRADIENT_STEP = 1e-4
+#: Longest Newton step onto the exact surface, in lattice spacings.
+_MAX_STEP = 0.5
 
 
 def _signed_field(lattice: Lattice, amplitude: float) -> tuple[np.ndarray, bool]:
@@ -177,18 +180,34 @@ def vertex_normals(vertices_a0: np.ndarray, faces: np.ndarray) -> np.ndarray:
     return out / np.where(norm > 0, norm, 1.0)
 
 
-def _exact_psi_and_normals(state: State, verts: np.ndarray, h_a0: float, fallback: np.ndarray):
-    """psi at the vertices and outward unit normals -grad|psi|^2 / |grad|psi|^2|, both from
-    the analytic state (forward differences of the exact density)."""
+def _exact_vertices(state: State, verts: np.ndarray, level: float, spacing_a0: float,
+                    fallback: np.ndarray):
+    """Vertices moved onto the exact surface, psi there and outward unit normals.
+
+    Marching cubes places a vertex by linear interpolation along a lattice edge, which
+    for a density falling like e^{-r} puts it slightly inside.  One Newton step on
+    log|psi|^2 - log(level) along the exact gradient (forward differences of the exact
+    density) moves it onto the surface to second order; steps longer than half a
+    lattice spacing (near a node, where the gradient is unreliable) are not taken.
+    psi is then evaluated exactly at the final positions.
+    """
+    h = _GRADIENT_STEP * spacing_a0
     x, y, z = verts[:, 0], verts[:, 1], verts[:, 2]
-    psi = state.psi(x, y, z)
-    rho = np.abs(psi) ** 2
-    grad = np.stack([state.density(x + h_a0, y, z) - rho, state.density(x, y + h_a0, z) - rho,
-                     state.density(x, y, z + h_a0) - rho], axis=1) / h_a0
+    rho = state.density(x, y, z)
+    grad = np.stack([state.density(x + h, y, z) - rho, state.density(x, y + h, z) - rho,
+                     state.density(x, y, z + h) - rho], axis=1) / h
     norm = np.linalg.norm(grad, axis=1, keepdims=True)
-    good = (norm[:, 0] > 0) & np.isfinite(norm[:, 0])
-    normals = np.where(good[:, None], -grad / np.where(good[:, None], norm, 1.0), fallback)
-    return psi, normals
+    good = (norm[:, 0] > 0) & np.isfinite(norm[:, 0]) & (rho > 0)
+    safe = np.where(good[:, None], norm, 1.0)
+    normals = np.where(good[:, None], -grad / safe, fallback)
+    # Newton on log(rho): step = -log(rho / level) * rho * grad / |grad|^2
+    with np.errstate(divide="ignore", invalid="ignore"):
+        step = (-np.log(np.where(good, rho, 1.0) / level) * np.where(good, rho, 0.0))[:, None] \
+            * grad / safe**2
+    length = np.linalg.norm(step, axis=1)
+    take = good & np.isfinite(length) & (length <= _MAX_STEP * spacing_a0)
+    moved = verts + np.where(take[:, None], step, 0.0)
+    return moved, state.psi(moved[:, 0], moved[:, 1], moved[:, 2]), normals
 
 
 def _interpolated_psi(lattice: Lattice, verts: np.ndarray) -> np.ndarray:
@@ -219,7 +238,10 @@ def surface_at_level(lattice: Lattice, level: LevelResult) -> Surface:
     ValueError
         If no lattice point reaches the level (empty surface) or the superlevel set
         reaches the edge of the lattice (the surface would be cut open by the box).
+    MemoryLimitError
+        If the work arrays of this step would not fit in the memory free now.
     """
+    require_surface_memory(lattice.shape, lattice.values.dtype)
     amplitude = math.sqrt(level.level)
     field, signed = _signed_field(lattice, amplitude)
     parts = []
@@ -245,9 +267,8 @@ def surface_at_level(lattice: Lattice, level: LevelResult) -> Surface:
     lattice_normals = np.where(norm > 0, lattice_normals / np.where(norm > 0, norm, 1.0),
                                vertex_normals(verts, faces))
     if lattice.state is not None:
-        psi, normals = _exact_psi_and_normals(lattice.state, verts,
-                                              _GRADIENT_STEP * min(lattice.spacing_a0),
-                                              lattice_normals)
+        verts, psi, normals = _exact_vertices(lattice.state, verts, level.level,
+                                              min(lattice.spacing_a0), lattice_normals)
     else:
         psi, normals = _interpolated_psi(lattice, verts), lattice_normals
     return Surface(vertices_a0=verts, faces=faces, normals=normals, psi=psi, level=level.level,
@@ -285,6 +306,9 @@ def extract_surface(source: State | Lattice, fraction: float, resolution: int = 
     ------
     ValueError
         For F outside (0, 1), an empty surface, or a surface cut by the edge of the box.
+    MemoryLimitError
+        If the lattice and the surface step together would not fit in the memory free
+        now (checked before the lattice is allocated).
 
     Examples
     --------
@@ -296,6 +320,9 @@ def extract_surface(source: State | Lattice, fraction: float, resolution: int = 
     """
     fraction = check_fraction(fraction)
     if isinstance(source, State):
+        # both steps are refused together, before the lattice is allocated
+        require_lattice_memory(int(resolution), dtype, extra_bytes_per_point=surface_bytes_per_point(dtype),
+                               what="lattice with its surface")
         lattice = sample(source, resolution=resolution, box=box, dtype=dtype)
     elif isinstance(source, Lattice):
         if box is not None:
