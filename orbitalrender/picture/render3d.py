@@ -50,6 +50,7 @@ from functools import cache
 import numba
 import numpy as np
 
+from ..lattice.memory import require_render_memory
 from ..surface.model import Surface
 from .colormap import PHASE_SCHEMES, linear_to_srgb, phase_to_rgb, real_rotation, srgb_to_linear
 from .raster import Fragments, rasterize
@@ -764,6 +765,12 @@ def render_surfaces(surfaces: Surface | Sequence[Surface], width_px: int = 800, 
     -------
     Render
 
+    Raises
+    ------
+    MemoryLimitError
+        If the image buffers would not fit in the memory free now (checked before any
+        is allocated).
+
     Examples
     --------
     >>> import numpy as np
@@ -789,6 +796,7 @@ def render_surfaces(surfaces: Surface | Sequence[Surface], width_px: int = 800, 
         raise ValueError(f"unknown phase map {phase_map!r}: use one of {', '.join(PHASE_SCHEMES)}")
     if translucent_outer is not None and not 0.0 < translucent_outer <= 1.0:
         raise ValueError(f"the opacity of outer shells must lie in (0, 1], got {translucent_outer}")
+    require_render_memory(width_px, height_px, ss, cutaway is not None)  # before any buffer
     segment = _axis_segment(surfaces) if nodal_axis else None
     camera = frame_camera(surfaces, camera, width_px / height_px, segment)
     proj = _projection(camera, width_px * ss, height_px * ss)
