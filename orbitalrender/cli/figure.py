@@ -19,6 +19,7 @@ import numpy as np
 from ..atomic import check_writable
 from ..errors import UserInputError
 from ..lattice.grid import Box
+from ..lattice.memory import require_lattice_memory, require_render_memory, surface_bytes_per_point
 from ..lattice.sampler import default_box, sample
 from ..picture.colormap import PHASE_SCHEMES
 from ..picture.layout import default_columns, shell_states, small_multiples, time_strip
@@ -159,6 +160,10 @@ def _check_options(args: argparse.Namespace):
         check_writable(out)
     if args.report:
         check_writable(args.report)
+    dtype = np.complex64 if args.precision == "single" else np.complex128
+    require_lattice_memory(args.resolution, dtype, extra_bytes_per_point=surface_bytes_per_point(dtype),
+                           what="lattice with its surface")
+    require_render_memory(*size, args.supersample, cutaway is not None)
     return size, camera, cutaway, times, out
 
 
