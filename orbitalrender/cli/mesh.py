@@ -19,6 +19,7 @@ import numpy as np
 from ..atomic import check_writable
 from ..errors import UserInputError
 from ..lattice.grid import Box
+from ..lattice.memory import require_lattice_memory, surface_bytes_per_point
 from ..lattice.sampler import default_box, sample
 from ..mesh.export import (
     length_scale,
@@ -121,6 +122,9 @@ def _check_options(args: argparse.Namespace) -> tuple[Path, str]:
                              "with --printable or --parts")
     if args.cutaway and not args.printable:
         raise UserInputError("--cutaway is part of --printable")
+    dtype = np.complex64 if args.precision == "single" else np.complex128
+    require_lattice_memory(args.resolution, dtype, extra_bytes_per_point=surface_bytes_per_point(dtype),
+                           what="lattice with its surface")
     return out, suffix
 
 
