@@ -21,6 +21,8 @@ __all__ = ["main", "build_parser", "COMMANDS"]
 #: Subcommand name -> module in this package that defines ``register(subparsers)``.
 COMMANDS: dict[str, str] = {
     "describe": "describe",
+    "section": "section",
+    "radial": "radial",
     "figure": "figure",
     "mesh": "mesh",
 }

@@ -8,7 +8,8 @@ from ..state.model import State
 from ..state.notation import parse_state
 from ..state.units import femtoseconds_to_au, nucleus_reduced_mass_ratio
 
-__all__ = ["add_state_arguments", "state_from_args", "add_lattice_arguments"]
+__all__ = ["add_state_arguments", "state_from_args", "add_lattice_arguments", "add_field_arguments",
+           "field_from_args"]
 
 
 def add_state_arguments(parser: argparse.ArgumentParser, many: bool = False,
@@ -45,3 +46,20 @@ def add_lattice_arguments(parser: argparse.ArgumentParser, default_resolution: i
                         help="half-width of the lattice cube in a0 (default: from the state)")
     parser.add_argument("--precision", choices=("single", "double"), default="single",
                         help="complex64 or complex128 lattice values (default single)")
+
+
+def add_field_arguments(parser: argparse.ArgumentParser, what: str = "use") -> None:
+    """--field FILE and the grid options of an .npy field (--spacing-a0, --origin-a0)."""
+    parser.add_argument("--field", metavar="FILE", default=None,
+                        help=f"{what} psi stored in an .npy/.npz file instead of a STATE")
+    parser.add_argument("--spacing-a0", type=float, default=None,
+                        help="grid step of an .npy field in a0 (an .npz file carries its own)")
+    parser.add_argument("--origin-a0", type=float, nargs=3, default=None, metavar=("X", "Y", "Z"),
+                        help="coordinates of the first grid point of an .npy field (default: centred)")
+
+
+def field_from_args(args: argparse.Namespace):
+    """The user field (a Lattice with ``state=None``) that --field and its grid options name."""
+    from ..lattice.userfield import load_field
+
+    return load_field(args.field, args.spacing_a0, args.origin_a0)

@@ -33,7 +33,7 @@ from typing import Any
 import matplotlib as mpl
 import numpy as np
 
-from ..atomic import atomic_path
+from ..atomic import atomic_path, check_writable
 from ..state.model import State
 
 __all__ = [
@@ -45,12 +45,19 @@ __all__ = [
     "write_report",
     "default_output_path",
     "figure_format",
+    "state_metadata",
+    "DPI_RANGE",
+    "check_dpi",
+    "check_output_paths",
 ]
 
 #: Suffix -> matplotlib format name of the picture files we write.
 FIGURE_SUFFIXES: dict[str, str] = {".png": "png", ".svg": "svg", ".pdf": "pdf"}
 #: Name of the PNG text chunk that holds the full metadata as JSON.
 METADATA_KEY = "orbitalrender"
+#: Dots per inch accepted for raster output: below 10 nothing is legible, above 2400 a
+#: 6.4 in figure is over 15000 px wide.
+DPI_RANGE = (10.0, 2400.0)
 #: Fixed salt for the ids matplotlib writes into SVG files (any constant string works).
 _SVG_HASH_SALT = "orbitalrender"
 
@@ -101,7 +108,8 @@ def _jsonable(value: Any) -> Any:
     raise TypeError(f"cannot store {type(value).__name__} in figure metadata")
 
 
-def _state_metadata(state: State) -> dict[str, Any]:
+def state_metadata(state: State) -> dict[str, Any]:
+    """The state's label, terms (n, l, m, coefficient as [re, im], centre), Z, mu/m_e and time."""
     return {
         "state": state.label,
         "terms": [{"n": t.n, "l": t.l, "m": t.m, "coefficient": [t.coefficient.real, t.coefficient.imag],
@@ -148,7 +156,7 @@ def figure_metadata(state: State | None, fraction: float | None = None, level: f
 
     md: dict[str, Any] = {"tool": "orbitalrender", "version": __version__}
     if state is not None:
-        md.update(_state_metadata(state))
+        md.update(state_metadata(state))
     else:
         md["state"] = None
     md["fraction"] = fraction
@@ -156,6 +164,25 @@ def figure_metadata(state: State | None, fraction: float | None = None, level: f
     md["resolution"] = resolution
     md.update(extra)
     return _jsonable(md)
+
+
+def check_dpi(dpi: float) -> float:
+    """`dpi` as float, or ValueError unless it lies in ``DPI_RANGE``."""
+    lo, hi = DPI_RANGE
+    if not lo <= dpi <= hi:
+        raise ValueError(f"dots per inch must be {lo:g} to {hi:g}, got {dpi:g}")
+    return float(dpi)
+
+
+def check_output_paths(out: str | os.PathLike | None, report: str | os.PathLike | None = None) -> Path | None:
+    """Before any work: the picture path has a known suffix and a writable folder, and so has the
+    report's; returns `out` as a Path (None stays None)."""
+    if report is not None:
+        check_writable(report)
+    if out is None:
+        return None
+    figure_format(out)
+    return check_writable(out)
 
 
 def metadata_json(metadata: Mapping[str, Any]) -> str:

@@ -263,7 +263,7 @@ def radial_figure(states: Sequence[State], quantities: Sequence[str] = RADIAL_QU
     height = max(0.9 + 1.9 * rows, 0.7 + line_in * (8 + 5.2 * len(states)))
     fig = matplotlib.figure.Figure(figsize=(width_in, height))
     top = 1.0 - 0.55 / height
-    grid = fig.add_gridspec(rows, 1, left=0.12, right=0.76, bottom=0.5 / height, top=top, hspace=0.12)
+    grid = fig.add_gridspec(rows, 1, left=0.12, right=0.74, bottom=0.5 / height, top=top, hspace=0.12)
     r_max = radial_range_a0(states)
     axes = [fig.add_subplot(grid[i, 0]) for i in range(rows)]
     marks: list[RadialMarks] = []
@@ -275,20 +275,20 @@ def radial_figure(states: Sequence[State], quantities: Sequence[str] = RADIAL_QU
             ax.tick_params(labelbottom=False)
     axes[-1].set_xlabel(f"$r$ ({unit_label(units)})", fontsize=9)
     handles, labels = axes[0].get_legend_handles_labels()
-    fig.legend(handles, labels, loc="upper left", bbox_to_anchor=(0.78, top), fontsize=8, frameon=False,
+    fig.legend(handles, labels, loc="upper left", bbox_to_anchor=(0.765, top), fontsize=8, frameon=False,
                title="state", title_fontsize=8, alignment="left")
     y = top - line_in * (len(states) + 2) / height
-    fig.legend(handles=_mark_legend_handles(fraction), loc="upper left", bbox_to_anchor=(0.78, y),
+    fig.legend(handles=_mark_legend_handles(fraction), loc="upper left", bbox_to_anchor=(0.765, y),
                fontsize=7.5, frameon=False, handlelength=2.6, title="marks", title_fontsize=8,
                alignment="left")
     y -= line_in * 5 / height
     k = a0_to(units)
-    fig.text(0.79, y, f"values ({unit_label(units)})", fontsize=8, va="top")
+    fig.text(0.775, y, f"values ({unit_label(units)})", fontsize=8, va="top")
     for i, m in enumerate(marks):
         y -= line_in * 1.1 / height
         colour = _STATE_COLOURS[i % len(_STATE_COLOURS)]
         nodes = ", ".join(f"{r * k:.4g}" for r in m.node_radii_a0) or "none"
-        fig.text(0.79, y, f"{m.label or f'state {i + 1}'}\n  nodes: {nodes}\n"
+        fig.text(0.775, y, f"{m.label or f'state {i + 1}'}\n  nodes: {nodes}\n"
                  f"  most probable: {m.most_probable_a0 * k:.4g}\n"
                  f"  {100 * m.fraction:.4g} % within: {m.holding_a0 * k:.4g}",
                  fontsize=7, va="top", color=colour, linespacing=1.25)

@@ -131,13 +131,20 @@ class Plane:
         d = self.distance_a0(point_a0)
         return tuple(float(p - d * nc) for p, nc in zip(point_a0, self.normal))
 
-    def describe(self) -> str:
-        """Short text for titles and reports, e.g. ``"xz plane, y = 0 a0"``."""
+    def describe(self, tex: bool = True) -> str:
+        """Short text for titles (matplotlib mathtext) or, with ``tex=False``, for messages.
+
+        Examples
+        --------
+        >>> plane("xz", 2).describe(tex=False)
+        'xz plane, y = 2 a0'
+        """
+        a0 = "$a_0$" if tex else "a0"
         if self.name:
             other = ({"x", "y", "z"} - set(self.name)).pop()
-            return f"{self.name} plane, {other} = {self.offset_a0:g} $a_0$"
+            return f"{self.name} plane, {other} = {self.offset_a0:g} {a0}"
         n = ", ".join(f"{c:.3g}" for c in self.normal)
-        return f"plane n = ({n}), n·r = {self.offset_a0:g} $a_0$"
+        return f"plane n = ({n}), n·r = {self.offset_a0:g} {a0}"
 
 
 def plane(spec: str | Sequence[float], offset_a0: float = 0.0) -> Plane:
@@ -371,7 +378,7 @@ def cross_section(source: State | Lattice, plane_: Plane, half_width_a0: float |
         window = max(half_widths)
     distance = plane_.distance_a0(middle)
     if abs(distance) > _box_reach(plane_, middle, half_widths) * (1 + 1e-12):
-        raise ValueError(f"the plane ({plane_.describe().replace('$', '')}) misses {what}: it lies "
+        raise ValueError(f"the plane ({plane_.describe(tex=False)}) misses {what}: it lies "
                          f"{abs(distance):.4g} a0 from its middle")
     if half_width_a0 is None:
         half_width_a0 = window
