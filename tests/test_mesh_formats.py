@@ -98,7 +98,10 @@ def test_obj_vertex_lines_hold_position_and_colour(tmp_path):
     write_bodies(path, [mesh])
     rows = np.array([ln.split()[1:] for ln in path.read_text().splitlines() if ln.startswith("v ")], float)
     assert rows.shape == (len(mesh.vertices), 6)
-    np.testing.assert_allclose(rows[:, 3:], mesh.visual.vertex_colors[:, :3] / 255.0, atol=1e-6)
+    # four decimals identify each of the 256 levels of an 8-bit channel exactly
+    np.testing.assert_array_equal(np.round(rows[:, 3:] * 255), mesh.visual.vertex_colors[:, :3])
+    loaded = trimesh.load(path, process=False)
+    np.testing.assert_array_equal(loaded.visual.vertex_colors[:, :3], mesh.visual.vertex_colors[:, :3])
 
 
 def test_stl_is_binary_with_the_published_layout(tmp_path):

@@ -185,21 +185,27 @@ def _reload(path: Path, suffix: str) -> trimesh.Trimesh:
 
 def write_bodies(path: str | os.PathLike, bodies: Sequence[trimesh.Trimesh],
                  names: Sequence[str] | None = None, comment: str = "", units: str = "",
-                 check: Callable[[trimesh.Trimesh], None] | None = None) -> trimesh.Trimesh:
+                 check: Callable[[trimesh.Trimesh], None] | None = None,
+                 verify: bool = True) -> trimesh.Trimesh | None:
     """Write `bodies` to `path` (format from the suffix) and return the file as read back.
 
     The file is written to a temporary name beside `path` and reloaded with trimesh;
     its vertex and face counts must match what was written (STL stores each triangle's
     corners separately, so there the reloaded mesh is merged first) and `check`, if
     given, may raise to refuse it.  Only then does it replace `path`: on any failure an
-    earlier file at `path` is left as it was.
+    earlier file at `path` is left as it was.  ``verify=False`` skips the reload (and
+    returns None); it is refused together with a `check`.
     """
     suffix = mesh_suffix(path)
+    if check is not None and not verify:
+        raise ValueError("a check needs the file read back (verify=True)")
     data = encode_bodies(bodies, suffix, names=names, comment=comment, units=units)
     vertices = sum(len(b.vertices) for b in bodies)
     faces = sum(len(b.faces) for b in bodies)
     with atomic_path(path) as tmp:
         tmp.write_bytes(data)
+        if not verify:
+            return None
         loaded = _reload(tmp, suffix)
         if suffix == ".stl":
             loaded.merge_vertices()

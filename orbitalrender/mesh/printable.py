@@ -191,7 +191,7 @@ def solid_parts(mesh: trimesh.Trimesh) -> list[trimesh.Trimesh]:
             continue
         point = comps[i].vertices[:1]
         # the smallest outward piece that contains the cavity wall owns it
-        owner = next((j for j in outers if volumes[j] > -v and comps[j].contains(point)[0]), None)
+        owner = next((j for j in outers if volumes[j] > -v and _contains(comps[j], point[0])), None)
         if owner is None:
             raise UserInputError("the surface has an inward-facing part that lies in no solid piece")
         members[owner].append(i)
@@ -212,18 +212,9 @@ def _inside_intervals(mesh: trimesh.Trimesh, origin: np.ndarray, direction: np.n
                       ) -> list[tuple[float, float]]:
     """Parameter intervals (t0, t1), t >= 0, where origin + t * direction lies inside `mesh`."""
     direction = direction / np.linalg.norm(direction)
-    locations, _, _ = mesh.ray.intersects_location(origin[None], direction[None], multiple_hits=True)
-    t = np.sort((np.reshape(locations, (-1, 3)) - origin) @ direction)
-    t = t[t > 0]
-    # a ray grazing an edge reports the same crossing twice: drop near-duplicates
-    if len(t):
-        keep = np.concatenate([[True], np.diff(t) > 1e-9 * max(1.0, float(t[-1]))])
-        t = t[keep]
-    inside_at_start = bool(mesh.contains(origin[None])[0])
-    if inside_at_start:
+    t = _crossings(mesh, origin, direction)
+    if len(t) % 2:  # an odd count: the ray starts inside
         t = np.concatenate([[0.0], t])
-    if len(t) % 2:
-        t = t[:-1]
     return [(float(a), float(b)) for a, b in zip(t[::2], t[1::2])]
 
 
@@ -416,46 +407,75 @@ def require_single_solid(mesh: trimesh.Trimesh) -> None:
         raise UserInputError("the model is not one printable solid: " + "; ".join(problems) + hint)
 
 
-def _first_hits(mesh: trimesh.Trimesh, origins: np.ndarray, directions: np.ndarray, length: float,
-                facing: float = 0.5, faces_allowed: np.ndarray | None = None) -> np.ndarray:
-    """Distance along each unit ray to the first triangle of `mesh` within `length` (inf if none)
-    that faces along the ray's line (|cos| between its normal and the ray >= `facing`).
-
-    Candidates are the triangles whose boxes meet the box of each ray segment (the
-    mesh's r-tree); each is tested with the Moller-Trumbore ray-triangle test, with a
-    small tolerance so that a ray through an edge or a corner is not lost between two
-    faces.  Segments of bounded length keep the candidate sets small, unlike whole rays.
-    The `facing` test (0.5, i.e. within 60 degrees: our choice) keeps the wall across
-    from a point and skips faces met at a grazing angle, as in the inside corner where
-    a strut meets a lobe.  `faces_allowed` (bool per face) restricts the faces that count.
+def _ray_triangle(origins: np.ndarray, directions: np.ndarray, triangles: np.ndarray
+                  ) -> tuple[np.ndarray, np.ndarray]:
+    """Moller-Trumbore test of ray i against triangle i: (t, hit) with the hit point at
+    origins + t * directions, t > 0.  A small tolerance keeps a ray through an edge or a
+    corner from slipping between two faces.
 
     References
     ----------
     .. [1] T. Moller and B. Trumbore, "Fast, minimum storage ray-triangle intersection",
            Journal of Graphics Tools 2(1), 21-28 (1997).
     """
+    e1 = triangles[:, 1] - triangles[:, 0]
+    e2 = triangles[:, 2] - triangles[:, 0]
+    p = np.cross(directions, e2)
+    det = np.einsum("ij,ij->i", e1, p)
+    scale = np.einsum("ij,ij->i", e1, e1) * np.einsum("ij,ij->i", e2, e2)
+    ok = np.abs(det) > 1e-12 * np.sqrt(scale)  # not parallel to the triangle's plane
+    inv = np.divide(1.0, det, out=np.zeros_like(det), where=ok)
+    s = origins - triangles[:, 0]
+    u = np.einsum("ij,ij->i", s, p) * inv
+    q = np.cross(s, e1)
+    v = np.einsum("ij,ij->i", directions, q) * inv
+    t = np.einsum("ij,ij->i", e2, q) * inv
+    tol = 1e-9
+    return t, ok & (u >= -tol) & (v >= -tol) & (u + v <= 1 + tol) & (t > 0)
+
+
+def _crossings(mesh: trimesh.Trimesh, origin: np.ndarray, direction: np.ndarray) -> np.ndarray:
+    """Sorted distances t > 0 at which one ray crosses `mesh` (every triangle tested: for
+    a handful of rays this is cheaper than building a spatial index)."""
+    count = len(mesh.faces)
+    t, hit = _ray_triangle(np.broadcast_to(origin, (count, 3)), np.broadcast_to(direction, (count, 3)),
+                           mesh.triangles)
+    t = np.sort(t[hit])
+    # a ray through an edge or a corner meets each adjacent face: keep one crossing
+    if len(t):
+        t = t[np.concatenate([[True], np.diff(t) > 1e-9 * max(1.0, float(t[-1]))])]
+    return t
+
+
+def _contains(mesh: trimesh.Trimesh, point: np.ndarray) -> bool:
+    """True if `point` is inside the closed `mesh` (odd number of crossings of a ray from it,
+    along a direction of our choice that no symmetric lattice mesh has edges along)."""
+    direction = np.array([0.5477, 0.3651, 0.7531])
+    return len(_crossings(mesh, point, direction / np.linalg.norm(direction))) % 2 == 1
+
+
+def _first_hits(mesh: trimesh.Trimesh, origins: np.ndarray, directions: np.ndarray, length: float,
+                facing: float = 0.5, faces_allowed: np.ndarray | None = None) -> np.ndarray:
+    """Distance along each unit ray to the first triangle of `mesh` within `length` (inf if none)
+    that faces along the ray's line (|cos| between its normal and the ray >= `facing`).
+
+    Candidates are the triangles whose boxes meet the box of each ray segment (the
+    mesh's r-tree); each is tested with :func:`_ray_triangle`.  Segments of bounded
+    length keep the candidate sets small, unlike whole rays.  The `facing` test (0.5,
+    i.e. within 60 degrees: our choice) keeps the wall across from a point and skips
+    faces met at a grazing angle, as in the inside corner where a strut meets a lobe.
+    `faces_allowed` (bool per face) restricts the faces that count.
+    """
     ends = origins + length * directions
     ids, counts = mesh.triangles_tree.intersection_v(np.minimum(origins, ends), np.maximum(origins, ends))
     ray = np.repeat(np.arange(len(origins)), counts.astype(np.int64))
     ids = ids.astype(np.int64)
-    tri = mesh.triangles[ids]
     d = directions[ray]
-    e1 = tri[:, 1] - tri[:, 0]
-    e2 = tri[:, 2] - tri[:, 0]
-    p = np.cross(d, e2)
-    det = np.einsum("ij,ij->i", e1, p)
-    ok = np.abs(det) > 1e-15 * float(np.max(mesh.extents)) ** 2
-    inv = np.divide(1.0, det, out=np.zeros_like(det), where=ok)
-    s = origins[ray] - tri[:, 0]
-    u = np.einsum("ij,ij->i", s, p) * inv
-    q = np.cross(s, e1)
-    v = np.einsum("ij,ij->i", d, q) * inv
-    t = np.einsum("ij,ij->i", e2, q) * inv
-    tol = 1e-9
+    t, hit = _ray_triangle(origins[ray], d, mesh.triangles[ids])
     facing_ok = np.abs(np.einsum("ij,ij->i", mesh.face_normals[ids], d)) >= facing
     if faces_allowed is not None:
         facing_ok &= faces_allowed[ids]
-    hit = ok & facing_ok & (u >= -tol) & (v >= -tol) & (u + v <= 1 + tol) & (t > 0) & (t <= length)
+    hit &= facing_ok & (t <= length)
     distance = np.full(len(origins), np.inf)
     np.minimum.at(distance, ray[hit], t[hit])
     return distance
