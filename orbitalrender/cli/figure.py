@@ -163,7 +163,6 @@ def _check_options(args: argparse.Namespace):
     dtype = np.complex64 if args.precision == "single" else np.complex128
     require_lattice_memory(args.resolution, dtype, extra_bytes_per_point=surface_bytes_per_point(dtype),
                            what="lattice with its surface")
-    require_render_memory(*size, args.supersample, cutaway is not None)
     return size, camera, cutaway, times, out
 
 
@@ -198,6 +197,7 @@ def run(args: argparse.Namespace) -> int:
         probe = fit_geometry(10 * _DEFAULT_PANEL_PX, _DEFAULT_PANEL_PX + 30, 1, 1, True, True, args.dpi)
         width = ncols * _DEFAULT_PANEL_PX + probe.legend_px
         height = nrows * (_DEFAULT_PANEL_PX + probe.title_px)
+    require_render_memory(width, height, args.supersample, cutaway is not None)  # before any work
     if out is None:
         out = default_output_path(states[0].label if len(states) == 1 else
                                   (f"shell{args.shell}" if args.shell else "states"), "figure")
