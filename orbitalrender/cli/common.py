@@ -9,7 +9,7 @@ from ..state.notation import parse_state
 from ..state.units import femtoseconds_to_au, nucleus_reduced_mass_ratio
 
 __all__ = ["add_state_arguments", "state_from_args", "add_lattice_arguments", "add_field_arguments",
-           "field_from_args"]
+           "field_from_args", "add_picture_arguments"]
 
 
 def add_state_arguments(parser: argparse.ArgumentParser, many: bool = False,
@@ -63,3 +63,20 @@ def field_from_args(args: argparse.Namespace):
     from ..lattice.userfield import load_field
 
     return load_field(args.field, args.spacing_a0, args.origin_a0)
+
+
+def add_picture_arguments(parser: argparse.ArgumentParser, title_default: str, report_what: str,
+                          default_dpi: float = 200.0, width_in: float = 6.4) -> None:
+    """--units, --title, --dpi, --out and --report of a command that draws one matplotlib figure."""
+    from ..state.units import LENGTH_UNITS_PER_A0
+
+    parser.add_argument("--units", choices=tuple(LENGTH_UNITS_PER_A0), default="a0",
+                        help="length unit of the axes (default a0)")
+    parser.add_argument("--title", default=None, help=f"title (default: {title_default})")
+    parser.add_argument("--dpi", type=float, default=default_dpi,
+                        help=f"dots per inch of PNG output (default {default_dpi:g}; the figure is "
+                             f"{width_in:g} in wide)")
+    parser.add_argument("--out", metavar="FILE", default=None,
+                        help="output picture; the suffix .png, .svg or .pdf sets the format "
+                             "(default: named after the state, PNG, in the current folder)")
+    parser.add_argument("--report", metavar="FILE.json", help=f"also write {report_what} as JSON")

@@ -21,8 +21,7 @@ from ..picture.output import (
     write_report,
 )
 from ..picture.radialplot import RADIAL_QUANTITIES, radial_figure
-from ..state.units import LENGTH_UNITS_PER_A0
-from .common import add_state_arguments, state_from_args
+from .common import add_picture_arguments, add_state_arguments, state_from_args
 
 __all__ = ["register", "run", "parse_quantities"]
 
@@ -62,15 +61,7 @@ def register(subparsers) -> None:
     p.add_argument("--fraction", type=float, default=_DEFAULT_FRACTION, metavar="F",
                    help=f"mark the radius holding this probability, between 0 and 1 "
                         f"(default {_DEFAULT_FRACTION:g})")
-    p.add_argument("--units", choices=tuple(LENGTH_UNITS_PER_A0), default="a0",
-                   help="length unit of the plots (default a0)")
-    p.add_argument("--title", default=None, help="title (default: from the states)")
-    p.add_argument("--dpi", type=float, default=_DEFAULT_DPI,
-                   help=f"dots per inch of PNG output (default {_DEFAULT_DPI:g}; the figure is 6.4 in wide)")
-    p.add_argument("--out", metavar="FILE", default=None,
-                   help="output picture; the suffix .png, .svg or .pdf sets the format "
-                        "(default: named after the states, PNG, in the current folder)")
-    p.add_argument("--report", metavar="FILE.json", help="also write the marked values as JSON")
+    add_picture_arguments(p, "from the states", "the marked values", _DEFAULT_DPI)
     p.set_defaults(run=run)
 
 

@@ -33,8 +33,13 @@ from ..picture.section import (
     plane,
     section_figure,
 )
-from ..state.units import LENGTH_UNITS_PER_A0
-from .common import add_field_arguments, add_state_arguments, field_from_args, state_from_args
+from .common import (
+    add_field_arguments,
+    add_picture_arguments,
+    add_state_arguments,
+    field_from_args,
+    state_from_args,
+)
 
 __all__ = ["register", "run", "parse_vector"]
 
@@ -97,15 +102,7 @@ def register(subparsers) -> None:
                    help="range of the logarithmic scale in powers of ten (default 3)")
     p.add_argument("--phase-map", choices=PHASE_SCHEMES, default="uniform",
                    help="uniform (constant lightness), cvd (red-green safe) or sign (real psi)")
-    p.add_argument("--units", choices=tuple(LENGTH_UNITS_PER_A0), default="a0",
-                   help="unit of the axes (default a0)")
-    p.add_argument("--title", default=None, help="title (default: state and plane)")
-    p.add_argument("--dpi", type=float, default=_DEFAULT_DPI,
-                   help=f"dots per inch of PNG output (default {_DEFAULT_DPI:g}; the figure is 6.4 in wide)")
-    p.add_argument("--out", metavar="FILE", default=None,
-                   help="output picture; the suffix .png, .svg or .pdf sets the format "
-                        "(default: named after the state, PNG, in the current folder)")
-    p.add_argument("--report", metavar="FILE.json", help="also write what was drawn as JSON")
+    add_picture_arguments(p, "state and plane", "what was drawn", _DEFAULT_DPI)
     p.set_defaults(run=run)
 
 

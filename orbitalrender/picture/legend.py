@@ -82,6 +82,17 @@ def _wheel_rgba(scheme: str, inner: float, pixels: int = _WHEEL_PIXELS) -> np.nd
     return rgba
 
 
+def _finish(ax, title: str | None, fontsize: float, pad_em: float, half_width: float,
+            ylim: tuple[float, float]) -> None:
+    """Title (`pad_em` font sizes above), limits, equal aspect and no frame for a legend's axes."""
+    if title:
+        ax.set_title(title, fontsize=fontsize, pad=fontsize * pad_em)
+    ax.set_xlim(-half_width, half_width)
+    ax.set_ylim(*ylim)
+    ax.set_aspect("equal")
+    ax.set_axis_off()
+
+
 def draw_phase_wheel(ax, scheme: str = "uniform", inner_radius: float = 0.55,
                      title: str | None = r"arg $\psi$", fontsize: float = 8.0) -> None:
     """Draw the phase wheel of `scheme` into `ax`: an annulus coloured by the map with the
@@ -121,12 +132,7 @@ def draw_phase_wheel(ax, scheme: str = "uniform", inner_radius: float = 0.55,
         ax.text(label_r * math.cos(angle) - (0.1 if ha == "left" else -0.1 if ha == "right" else 0),
                 label_r * math.sin(angle) - (0.1 if va == "bottom" else -0.1 if va == "top" else 0),
                 text, ha=ha, va=va, fontsize=fontsize)
-    if title:
-        ax.set_title(title, fontsize=fontsize, pad=fontsize * 1.6)
-    ax.set_xlim(-1.75, 1.75)
-    ax.set_ylim(-1.45, 1.45)
-    ax.set_aspect("equal")
-    ax.set_axis_off()
+    _finish(ax, title, fontsize, 1.6, 1.75, (-1.45, 1.45))
 
 
 def draw_sign_swatches(ax, title: str | None = r"sign of $\psi$", fontsize: float = 8.0) -> None:
@@ -148,12 +154,7 @@ def draw_sign_swatches(ax, title: str | None = r"sign of $\psi$", fontsize: floa
         ax.add_patch(Rectangle((-0.9, y), 0.8, 0.6, facecolor=SIGN_COLOURS[key], edgecolor="0.3",
                                linewidth=0.5))
         ax.text(0.1, y + 0.3, text, ha="left", va="center", fontsize=fontsize * 1.4)
-    if title:
-        ax.set_title(title, fontsize=fontsize, pad=fontsize * 0.8)
-    ax.set_xlim(-1.2, 1.2)
-    ax.set_ylim(-0.7, 1.5)
-    ax.set_aspect("equal")
-    ax.set_axis_off()
+    _finish(ax, title, fontsize, 0.8, 1.2, (-0.7, 1.5))
 
 
 def draw_phase_legend(ax, scheme: str = "uniform", fontsize: float = 8.0) -> None:
