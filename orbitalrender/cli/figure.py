@@ -14,6 +14,7 @@ import argparse
 import re
 from pathlib import Path
 
+import matplotlib as mpl
 import numpy as np
 
 from ..atomic import check_writable
@@ -24,7 +25,15 @@ from ..lattice.sampler import default_box, sample
 from ..picture.colormap import PHASE_SCHEMES
 from ..picture.layout import default_columns, shell_states, small_multiples, time_strip
 from ..picture.output import default_output_path, figure_format, figure_metadata, save_figure, write_report
-from ..picture.render3d import PROJECTIONS, Camera, figure_3d, fit_geometry, parse_cutaway, surface_title
+from ..picture.render3d import (
+    PROJECTIONS,
+    Camera,
+    figure_3d,
+    fit_geometry,
+    parse_cutaway,
+    state_nodal_axis_centre,
+    surface_title,
+)
 from ..state.units import LENGTH_UNITS_PER_A0, femtoseconds_to_au, nucleus_reduced_mass_ratio
 from .common import add_lattice_arguments, add_state_arguments, state_from_args
 
@@ -198,6 +207,8 @@ def run(args: argparse.Namespace) -> int:
         width = ncols * _DEFAULT_PANEL_PX + probe.legend_px
         height = nrows * (_DEFAULT_PANEL_PX + probe.title_px)
     require_render_memory(width, height, args.supersample, cutaway is not None)  # before any work
+    if args.nodal_axis and len(states) == 1:
+        state_nodal_axis_centre(states[0])  # refuse before any work
     if out is None:
         out = default_output_path(states[0].label if len(states) == 1 else
                                   (f"shell{args.shell}" if args.shell else "states"), "figure")
@@ -233,7 +244,9 @@ def run(args: argparse.Namespace) -> int:
         metadata = figure_metadata(None, args.fraction, None, args.resolution, command="figure",
                                    panels=[_panel_record(s) for s in surfaces], view=view,
                                    px_per_a0=renders[0].px_per_a0)
-    save_figure(fig, out, metadata, dpi=args.dpi, transparent=args.transparent)
+    # labels stay text in SVG (not outlines) and embed as TrueType in PDF, as journals ask
+    with mpl.rc_context({"svg.fonttype": "none", "pdf.fonttype": 42}):
+        save_figure(fig, out, metadata, dpi=args.dpi, transparent=args.transparent)
     if args.report:
         write_report(args.report, metadata | {"file": str(out)})
     print(f"wrote {out}")

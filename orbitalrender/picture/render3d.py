@@ -67,6 +67,7 @@ __all__ = [
     "render_surfaces",
     "nodal_axis_centre",
     "has_nodal_axis",
+    "state_nodal_axis_centre",
     "FigureGeometry",
     "fit_geometry",
     "figure_fontsize",
@@ -313,9 +314,14 @@ def nodal_axis_centre(surface: Surface) -> tuple[float, float, float]:
     >>> nodal_axis_centre(s)
     (0.0, 0.0, 0.0)
     """
-    state = surface.state
-    if state is None:
+    if surface.state is None:
         raise ValueError("a nodal axis can only be drawn for an analytic state, not a user field")
+    return state_nodal_axis_centre(surface.state)
+
+
+def state_nodal_axis_centre(state) -> tuple[float, float, float]:
+    """Centre of the line parallel to z on which psi of `state` vanishes (see
+    :func:`nodal_axis_centre`); ValueError if there is none."""
     if not state.is_single_centre or any(t.m == 0 for t in state.terms):
         raise ValueError(f"state {state.label!r} has no nodal axis along z: that needs every term "
                          "to have m != 0 and one centre")
