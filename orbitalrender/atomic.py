@@ -25,6 +25,13 @@ def check_writable(path: str | os.PathLike) -> Path:
     return p
 
 
+def _umask() -> int:
+    """The process's file-creation mask (reading it means setting it; it is set back at once)."""
+    mask = os.umask(0o022)
+    os.umask(mask)
+    return mask
+
+
 @contextlib.contextmanager
 def atomic_path(path: str | os.PathLike) -> Iterator[Path]:
     """Yield a temporary path in the target's folder; on success rename it onto `path`.
@@ -46,6 +53,7 @@ def atomic_path(path: str | os.PathLike) -> Iterator[Path]:
                                     dir=target.parent if str(target.parent) else ".")
     os.close(fd)
     tmp = Path(tmp_name)
+    os.chmod(tmp, 0o666 & ~_umask())  # mkstemp makes 0600; give the file the usual permissions
     try:
         yield tmp
         os.replace(tmp, target)

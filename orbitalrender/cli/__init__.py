@@ -25,6 +25,7 @@ COMMANDS: dict[str, str] = {
     "radial": "radial",
     "figure": "figure",
     "mesh": "mesh",
+    "gallery": "gallery",
 }
 
 _USER_ERRORS = (UserInputError, ValueError, MemoryLimitError, FileNotFoundError,

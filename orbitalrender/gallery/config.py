@@ -26,11 +26,16 @@ from dataclasses import dataclass, field
 from pathlib import Path, PurePosixPath
 from typing import Any
 
+from ..cli.radial import parse_quantities
 from ..errors import UserInputError
+from ..mesh.printable import BASES
 from ..picture.colormap import PHASE_SCHEMES
+from ..picture.output import DPI_RANGE, check_dpi
+from ..picture.render3d import PROJECTIONS, Camera, parse_cutaway
+from ..picture.section import DENSITY_SCALES, MAX_PIXELS, MIN_PIXELS, PLANE_NAMES, plane
 from ..state.model import State
 from ..state.notation import parse_state
-from ..state.units import femtoseconds_to_au, nucleus_reduced_mass_ratio
+from ..state.units import LENGTH_UNITS_PER_A0, femtoseconds_to_au, nucleus_reduced_mass_ratio
 
 __all__ = ["KINDS", "SCHEMA", "TOP_KEYS", "ConfigError", "OutputSpec", "GalleryConfig",
            "load_config", "parse_config", "Key"]
@@ -162,6 +167,15 @@ def _numbers(count: int | None = None, lo: float | None = None):
     return check
 
 
+def _quantities(v, ctx):
+    """One name or a list of names (the radial command's --quantity, as TOML)."""
+    if isinstance(v, str):
+        v = [v]
+    if not isinstance(v, list) or not v or not all(isinstance(q, str) for q in v):
+        raise _Bad(None)
+    return v
+
+
 def _nucleus(v, ctx):
     if isinstance(v, bool) or not isinstance(v, (str, int, float)):
         raise _Bad(None)
@@ -204,11 +218,26 @@ def _file(v, ctx):
     return str(p)
 
 
+def _by(first, fn: Callable[[Any], Any]):
+    """Checker: `first` (a type/range checker), then `fn(value)`, the library's own check,
+    whose ValueError message becomes the 'expected' text."""
+    def check(v, ctx):
+        v = first(v, ctx)
+        try:
+            fn(v)
+        except ValueError as exc:
+            raise _Bad(f"usable here ({exc})") from None
+        return v
+    return check
+
+
 def _lattice_resolution(v, ctx):
     return _number(8, 1024, integer=True)(v, ctx)
 
 
-_LENGTH_UNITS = ("a0", "angstrom", "pm", "nm")
+_LENGTH_UNITS = tuple(LENGTH_UNITS_PER_A0)
+#: Largest range of the logarithmic density scale of a section, as the section command allows.
+_MAX_DECADES = 12.0
 
 # -- the schema -------------------------------------------------------------------------
 _K = Key
@@ -241,6 +270,53 @@ SCHEMA: dict[str, Key] = {k.name: k for k in [
     _K("phase_map", ("figure", "layout", "section", "mesh"), _choice(PHASE_SCHEMES),
        _choice_text(PHASE_SCHEMES)),
     _K("units", _ALL, _choice(_LENGTH_UNITS), _choice_text(_LENGTH_UNITS)),
+    # 3D pictures
+    _K("width_px", ("figure", "layout"), _number(16, 8192, integer=True),
+       _range_text("integer", 16, 8192)),
+    _K("height_px", ("figure", "layout"), _number(16, 8192, integer=True),
+       _range_text("integer", 16, 8192)),
+    _K("dpi", _PICTURES, _by(_number(), check_dpi), _range_text("number", *DPI_RANGE)),
+    _K("azimuth_deg", ("figure", "layout"), _number(), "a finite number"),
+    _K("elevation_deg", ("figure", "layout"), _number(-90, 90), _range_text("number", -90, 90)),
+    _K("zoom", ("figure", "layout"), _by(_number(0, lo_open=True), lambda v: Camera(zoom=v)),
+       "a number in the renderer's zoom range (1 fits the surface)"),
+    _K("projection", ("figure", "layout"), _choice(PROJECTIONS), _choice_text(PROJECTIONS)),
+    _K("transparent", _PICTURES, _boolean, "true or false"),
+    _K("cutaway", ("figure", "layout"), _by(_text, parse_cutaway),
+       "'front', 'quadrant' or conditions such as 'x>0&y>0'"),
+    _K("translucent_outer", ("figure", "layout"), _number(0, 1, lo_open=True),
+       _range_text("number", 0, 1, lo_open=True)),
+    _K("nodal_axis", ("figure", "layout"), _boolean, "true or false"),
+    _K("supersample", ("figure", "layout"), _number(1, 4, integer=True), _range_text("integer", 1, 4)),
+    _K("legend", ("figure", "layout"), _boolean, "true or false"),
+    _K("panel_px", ("layout",), _number(64, 4096, integer=True), _range_text("integer", 64, 4096)),
+    _K("title", ("figure", "section", "radial"), _text, "a string"),
+    _K("columns", ("layout",), _number(1, 64, integer=True), _range_text("integer", 1, 64)),
+    # sections
+    _K("plane", ("section",), _choice(PLANE_NAMES), _choice_text(PLANE_NAMES)),
+    _K("normal", ("section",), _by(_numbers(3), plane), "three numbers, not all zero"),
+    _K("offset_a0", ("section",), _number(), "a finite number"),
+    _K("extent_a0", ("section",), _number(0, lo_open=True), _range_text("number", 0, None, lo_open=True)),
+    _K("pixels", ("section",), _number(MIN_PIXELS, MAX_PIXELS, integer=True),
+       _range_text("integer", MIN_PIXELS, MAX_PIXELS)),
+    _K("scale", ("section",), _choice(DENSITY_SCALES), _choice_text(DENSITY_SCALES)),
+    _K("decades", ("section",), _number(0, _MAX_DECADES, lo_open=True),
+       _range_text("number", 0, _MAX_DECADES, lo_open=True)),
+    _K("nodes", ("section",), _boolean, "true or false"),
+    _K("contour", ("section",), _boolean, "true or false"),
+    # radial plots
+    _K("quantity", ("radial",), _by(_quantities, lambda v: parse_quantities(",".join(v))),
+       "'all', or one or a list of 'R', 'density', 'cumulative'"),
+    # meshes
+    _K("size_mm", ("mesh",), _number(0, 10000, lo_open=True), _range_text("number", 0, 10000, lo_open=True)),
+    _K("printable", ("mesh",), _boolean, "true or false"),
+    _K("base", ("mesh",), _choice(BASES), _choice_text(BASES)),
+    _K("print_cutaway", ("mesh",), _boolean, "true or false"),
+    _K("min_thickness_mm", ("mesh",), _number(0, lo_open=True), _range_text("number", 0, None, lo_open=True)),
+    _K("min_gap_mm", ("mesh",), _number(0, lo_open=True), _range_text("number", 0, None, lo_open=True)),
+    _K("strut_fraction", ("mesh",), _number(0, 0.5, lo_open=True),
+       _range_text("number", 0, 0.5, lo_open=True)),
+    _K("split_sign", ("mesh",), _boolean, "true or false"),
 ]}
 
 
@@ -364,6 +440,34 @@ def _parse_states(opts: dict, kind: str, path: Path, table: str) -> tuple[State,
     return (parse(opts["state"], "state", t0),)
 
 
+def _check_together(opts: dict, kind: str, file: str, states: tuple[State, ...], path: Path,
+                    table: str) -> None:
+    """Keys that only make sense with (or without) others, and keys that need a kind of state."""
+    def bad(key: str, text: str) -> ConfigError:
+        return ConfigError(f"{_where(path, table, key)} {text}")
+
+    if "plane" in opts and "normal" in opts:
+        raise bad("normal", "does not go with 'plane' (give one of them)")
+    if kind == "mesh":
+        printing = [k for k in ("printable", "print_cutaway") if opts.get(k)]
+        if printing and "size_mm" not in opts:
+            raise bad(printing[0], "needs 'size_mm', the printed size in millimetres")
+        if opts.get("print_cutaway") and not opts.get("printable"):
+            raise bad("print_cutaway", "is part of 'printable = true'")
+        if opts.get("split_sign"):
+            if opts.get("printable"):
+                raise bad("split_sign", "does not go with 'printable' (bodies for two materials "
+                                        "are written as they are)")
+            if file.lower().endswith(".stl"):
+                raise bad("split_sign", "needs a file format that keeps bodies apart: .glb, .ply or .obj")
+            if states and not states[0].is_real:
+                raise bad("split_sign", "needs a real state (psi real up to one global phase)")
+    if kind == "figure" and opts.get("nodal_axis") and states:
+        st = states[0]
+        if not st.is_single_centre or any(t.m == 0 for t in st.terms):
+            raise bad("nodal_axis", "needs a state whose terms all have m != 0 about one centre")
+
+
 def parse_config(data: Mapping[str, Any], path: str | os.PathLike = "config.toml") -> GalleryConfig:
     """Validate a config already read from TOML; see :func:`load_config`.
 
@@ -431,6 +535,7 @@ def parse_config(data: Mapping[str, Any], path: str | os.PathLike = "config.toml
                               f"output '{files[file.lower()]}' also writes")
         files[file.lower()] = name
         states = _parse_states(opts, kind, path, table)
+        _check_together(opts, kind, file, states, path, table)
         specs.append(OutputSpec(name=name, kind=kind, file=file, index=i, options=opts,
                                 states=states))
     return GalleryConfig(path=path, title=data.get("title", path.stem),
