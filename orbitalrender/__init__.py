@@ -9,6 +9,8 @@ __version__ = "0.1.0"
 
 from .lattice.grid import Box, Lattice
 from .lattice.sampler import default_box, sample
+from .mesh.export import length_scale, surface_mesh, write_bodies
+from .mesh.printable import PrintOptions, make_printable, split_by_sign, thin_spots
 from .picture.output import figure_metadata, save_figure, write_report
 from .picture.radialplot import radial_figure, radial_marks
 from .picture.section import cross_section, plane, section_figure
@@ -25,6 +27,8 @@ __all__ = [
     "Box", "Lattice", "default_box", "sample",
     "Surface", "LevelResult", "level_for_fraction", "extract_surface",
     "Topology", "topology", "split_components",
+    "length_scale", "surface_mesh", "write_bodies", "PrintOptions", "make_printable", "split_by_sign",
+    "thin_spots",
     "figure_metadata", "save_figure", "write_report",
     "plane", "cross_section", "section_figure", "radial_figure", "radial_marks",
 ]

@@ -66,7 +66,8 @@ def test_printable_gives_exactly_one_watertight_component(tmp_path, capsys, stat
     assert mesh.is_watertight and mesh.is_winding_consistent and mesh.body_count == 1 and mesh.volume > 0
     data = json.loads(report.read_text())
     assert data["components"] == 1 and data["watertight"]
-    assert data["printable"]["parts_joined"] == (2 if state == "2pz" else 3)
+    pieces = 2 if state == "2pz" else 3
+    assert data["printable"]["parts_joined"] == pieces == data["surface"]["components"]
     assert data["printable"]["thin_walls"]["checked"] > 0
     assert data["material_cm3"] == pytest.approx(mesh.volume / 1000, rel=1e-3)
 

@@ -20,8 +20,8 @@ from orbitalrender.mesh.export import (
     surface_mesh,
     surface_report,
     write_bodies,
-    write_report,
 )
+from orbitalrender.picture.output import write_report
 from orbitalrender.state.model import eigenstate
 from orbitalrender.surface.extract import extract_surface
 

@@ -27,7 +27,6 @@ from ..mesh.export import (
     surface_mesh,
     surface_report,
     write_bodies,
-    write_report,
 )
 from ..mesh.printable import (
     BASES,
@@ -44,6 +43,7 @@ from ..mesh.printable import (
     thin_spots,
 )
 from ..picture.colormap import PHASE_SCHEMES
+from ..picture.output import write_report
 from ..state.units import LENGTH_UNITS_PER_A0
 from .common import add_lattice_arguments, add_state_arguments, state_from_args
 

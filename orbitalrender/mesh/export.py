@@ -10,7 +10,6 @@ and checked by reloading it with trimesh before it replaces an earlier file.
 
 from __future__ import annotations
 
-import json
 import math
 import os
 from collections.abc import Callable, Sequence
@@ -19,11 +18,12 @@ from pathlib import Path
 import numpy as np
 import trimesh
 
-from ..atomic import atomic_path, check_writable
+from ..atomic import atomic_path
 from ..errors import UserInputError
 from ..picture.colormap import PHASE_SCHEMES, psi_to_rgb, real_rotation
 from ..state.units import a0_to
 from ..surface.model import Surface
+from ..surface.topology import topology
 from . import glb, obj, ply, stl
 
 __all__ = [
@@ -37,7 +37,6 @@ __all__ = [
     "write_bodies",
     "mesh_summary",
     "surface_report",
-    "write_report",
 ]
 
 #: File suffix -> the format module that encodes it.
@@ -240,8 +239,9 @@ def mesh_summary(mesh: trimesh.Trimesh, factor: float) -> dict:
 def surface_report(surface: Surface, written: trimesh.Trimesh, factor: float, unit: str,
                    size_mm: float | None = None) -> dict:
     """The JSON-ready report of an export: the surface's provenance and the written mesh's
-    geometry; after a printed size also ``size_mm`` and ``material_cm3`` (solid volume of the
-    written model, struts and base included)."""
+    geometry (top level), the surface's own topology (``surface``, in a0, from
+    :func:`orbitalrender.surface.topology.topology`); after a printed size also ``size_mm``
+    and ``material_cm3`` (solid volume of the written model, struts and base included)."""
     report = {
         "state": surface.state.label if surface.state is not None else None,
         "fraction_requested": surface.fraction_requested,
@@ -252,27 +252,12 @@ def surface_report(surface: Surface, written: trimesh.Trimesh, factor: float, un
         "spacing_a0": list(surface.spacing_a0),
         "units": unit,
         "units_per_a0": factor,
+        "extent_a0": [float(e) for e in np.ptp(surface.vertices_a0, axis=0)],
     }
     report.update(mesh_summary(written, factor))
+    report["surface"] = topology(surface).as_dict()
     if size_mm is not None:
         report["size_mm"] = float(size_mm)
         report["extent_mm"] = [float(e) for e in np.ptp(written.vertices, axis=0)]
         report["material_cm3"] = report["volume_units3"] / _MM3_PER_CM3
     return report
-
-
-def write_report(path: str | os.PathLike, report: dict) -> None:
-    """Write `report` as one indented JSON object (through atomic_path)."""
-    check_writable(path)
-    text = json.dumps(report, indent=2, default=_json_default, allow_nan=False)
-    with atomic_path(path) as tmp:
-        tmp.write_text(text + "\n", encoding="utf-8")
-
-
-def _json_default(value):
-    if isinstance(value, np.generic):
-        return value.item()
-    if isinstance(value, np.ndarray):
-        return value.tolist()
-    raise TypeError(f"cannot write {type(value).__name__} to JSON")
-
