@@ -25,7 +25,7 @@ from orbitalrender.picture.section import (
     section_figure,
     shade,
 )
-from orbitalrender.state.model import eigenstate, real_orbital
+from orbitalrender.state.model import eigenstate, real_orbital, superpose
 from orbitalrender.state.units import a0_to
 
 
@@ -128,6 +128,17 @@ def test_complex_section_node_is_the_radial_circle():
     np.testing.assert_allclose(np.hypot(v[:, 0], v[:, 1]), 6.0, atol=5e-3)
     angles = np.sort(np.arctan2(v[:, 1], v[:, 0]))
     assert np.max(np.diff(np.concatenate([angles, angles[:1] + 2 * np.pi]))) < 2.5 * s.pixel_a0 / 6.0
+
+
+def test_near_nodes_of_a_complex_superposition_are_not_drawn():
+    # (1s + 2p_z)/sqrt 2 at t = 10 au: psi = a psi_100 + b e^{-i (E_2 - E_1) t} psi_210 with a
+    # relative phase that is not real, so psi = 0 needs psi_100 = 0 -- never (psi_100 > 0, closed
+    # form e^{-r}/sqrt(pi)).  Far out along z = 0 the 1s term is tiny and |psi| nearly vanishes on
+    # a line; that near-node must not be drawn.
+    s = cross_section(superpose([(1, eigenstate(1, 0, 0)), (1, eigenstate(2, 1, 0))], time_au=10.0),
+                      plane("xz"), 13.0, pixels=200, fraction=None)
+    assert s.signed is None
+    assert nodal_lines(s) == []
 
 
 def test_eigenstate_on_a_plane_through_z_is_signed():

@@ -72,6 +72,12 @@ _REAL_TOLERANCE = 1e-5
 #: across the cell, on a zero of the real part alone it stays comparable to its corners;
 #: 0.25 sits between the two (our choice; see nodal_lines).
 _NODE_RATIO = 0.25
+#: With exact psi: bisection steps on a pixel edge (2^-40 of a pixel, far below any
+#: drawing precision) and the share of |psi| at the edge ends that |psi| at the zero
+#: found may keep on a node (on a true node it is ~1e-12; where Re and Im only come
+#: close it stays of order 1e-3 to 1).
+_BISECTIONS = 40
+_EXACT_NODE_RATIO = 1e-6
 #: Nodal runs shorter than this many contour vertices are dropped (isolated zeros).
 _MIN_RUN = 3
 #: Magnitude of psi (a0^-3/2) in the region holding a state of principal number n is
@@ -449,6 +455,48 @@ def _zero_lines(field: np.ndarray) -> list[np.ndarray]:
     return find_contours(np.where(mask, field, 0.0), 0.0, mask=None if mask.all() else mask)
 
 
+def _edge_ends(rows_cols: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The two grid points (row, col) of the pixel-centre edge each contour vertex lies on."""
+    r, c = rows_cols[:, 0], rows_cols[:, 1]
+    on_row = np.abs(r - np.round(r)) < 1e-9
+    a = np.where(on_row[:, None], np.column_stack([np.round(r), np.floor(c)]),
+                 np.column_stack([np.floor(r), np.round(c)]))
+    b = a + np.where(on_row[:, None], [0.0, 1.0], [1.0, 0.0])
+    return a, b
+
+
+def _exact_psi(section: Section, rows_cols: np.ndarray) -> np.ndarray:
+    """psi of the section's state at fractional pixel positions, exactly."""
+    uv = _to_a0(section, rows_cols)
+    return section.state.psi(*section.plane.point(uv[:, 0], uv[:, 1], section.centre_a0))
+
+
+def _exact_node_test(section: Section, line: np.ndarray, use_real: bool) -> tuple[np.ndarray, np.ndarray]:
+    """For each vertex of a zero line of Re or Im (after the section's rotation): find the zero
+    of that part on its grid edge by bisection on the exact psi, and test whether |psi| vanishes
+    there too.  Returns (on_node mask, the refined vertices in pixel coordinates)."""
+    a, b = _edge_ends(line)
+    u = np.conj(section.rotation)
+
+    def part(t):
+        v = _exact_psi(section, a + t[:, None] * (b - a)) * u
+        return v.real if use_real else v.imag
+
+    lo, hi = np.zeros(len(line)), np.ones(len(line))
+    f_lo = part(lo)
+    for _ in range(_BISECTIONS):
+        mid = 0.5 * (lo + hi)
+        f_mid = part(mid)
+        same = np.sign(f_mid) == np.sign(f_lo)
+        lo, f_lo = np.where(same, mid, lo), np.where(same, f_mid, f_lo)
+        hi = np.where(same, hi, mid)
+    t = 0.5 * (lo + hi)
+    refined = a + t[:, None] * (b - a)
+    scale = np.maximum(np.abs(_exact_psi(section, a)), np.abs(_exact_psi(section, b)))
+    on_node = np.abs(_exact_psi(section, refined)) <= _EXACT_NODE_RATIO * scale
+    return on_node, refined
+
+
 def nodal_lines(section: Section) -> list[np.ndarray]:
     """Lines of the plane where psi = 0, as (K, 2) arrays of (u, v) in a0.
 
@@ -462,13 +510,22 @@ def nodal_lines(section: Section) -> list[np.ndarray]:
 
     Otherwise psi is genuinely complex on the plane and a nodal line is where
     psi = f e^{i chi} has f changing sign with a smooth chi: both Re and Im vanish
-    there.  The zero contours of Re(psi u*) and Im(psi u*) are traced; a vertex is
-    kept when |psi| interpolated there is below 0.25 of |psi| at the corners of its
-    pixel cell (true on a node, where |psi| falls to zero across the cell, false on
-    a zero of one part alone) and, of the two parts, only the one that crosses zero
-    more steeply there is used (Re when cos^2 chi >= 1/2, read from psi^2), so each
-    node is traced once.  Isolated zeros (vortex points, such as the z axis piercing
-    the xy plane for m != 0) are points, not lines, and are not drawn.
+    there.  The zero contours of Re(psi u*) and Im(psi u*) are traced and, of the
+    two parts, only the one that crosses zero more steeply is used at each vertex
+    (Re when cos^2 chi >= 1/2, read from psi^2), so each node is traced once.  A
+    vertex is kept when |psi| vanishes there too:
+
+    * for an analytic state, the zero of that part on the vertex's pixel edge is found
+      by bisection on the exact psi, and |psi| there must be below 1e-6 of |psi| at the
+      edge ends (on a node it is zero to the bisection tolerance; where Re and Im merely
+      come close, as where a small term keeps psi from vanishing, it is not);
+    * for a user lattice, |psi| interpolated at the vertex must be below 0.25 of |psi|
+      at the corners of its pixel cell (on a node |psi| falls to zero across the cell;
+      on a zero of one part alone it stays comparable), which cannot tell a node from a
+      near-node narrower than a pixel.
+
+    Isolated zeros (vortex points, such as the z axis piercing the xy plane for
+    m != 0) are points, not lines, and are not drawn.
     """
     if section.is_nodal_plane:
         return []
@@ -480,9 +537,11 @@ def nodal_lines(section: Section) -> list[np.ndarray]:
     out = []
     for part, use_real in ((rotated.real, True), (rotated.imag, False)):
         for line in _zero_lines(part):
-            here = np.abs(_bilinear(rotated, line))
-            on_node = here <= _NODE_RATIO * _corner_peak(rotated, line)
             steeper = (_bilinear(squared, line).real >= 0.0) == use_real
+            if section.exact:
+                on_node, line = _exact_node_test(section, line, use_real)
+            else:
+                on_node = np.abs(_bilinear(rotated, line)) <= _NODE_RATIO * _corner_peak(rotated, line)
             out.extend(_to_a0(section, piece) for piece in _runs(line, on_node & steeper))
     return out
 
