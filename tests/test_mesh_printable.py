@@ -12,7 +12,8 @@ import trimesh
 
 from orbitalrender.errors import UserInputError
 from orbitalrender.lattice.sampler import sample
-from orbitalrender.mesh.export import face_components, length_scale, surface_mesh
+from orbitalrender.mesh.bodies import face_components
+from orbitalrender.mesh.export import length_scale, surface_mesh
 from orbitalrender.mesh.printable import (
     PrintOptions,
     make_printable,

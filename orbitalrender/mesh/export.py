@@ -25,14 +25,13 @@ from ..state.units import a0_to
 from ..surface.model import Surface
 from ..surface.topology import topology
 from . import glb, obj, ply, stl
+from .bodies import face_components, submesh
 
 __all__ = [
     "MESH_SUFFIXES",
     "mesh_suffix",
     "length_scale",
     "surface_mesh",
-    "submesh",
-    "face_components",
     "encode_bodies",
     "write_bodies",
     "mesh_summary",
@@ -124,42 +123,6 @@ def surface_mesh(surface: Surface, factor: float = 1.0, scheme: str = "uniform",
     mesh.vertex_attributes["phase"] = surface.phase.astype(np.float32)
     mesh.vertex_attributes["density"] = (surface.magnitude ** 2).astype(np.float32)
     return mesh
-
-
-def submesh(mesh: trimesh.Trimesh, face_index: np.ndarray) -> trimesh.Trimesh:
-    """The faces `face_index` of `mesh` as a new mesh, keeping vertex colours and vertex attributes.
-
-    Examples
-    --------
-    >>> import trimesh
-    >>> len(submesh(trimesh.creation.box(), [0, 1]).vertices)
-    4
-    """
-    faces = np.asarray(mesh.faces)[np.asarray(face_index)]
-    used, inverse = np.unique(faces, return_inverse=True)
-    part = trimesh.Trimesh(mesh.vertices[used], inverse.reshape(-1, 3), process=False, validate=False)
-    if mesh.visual.kind == "vertex":
-        part.visual.vertex_colors = mesh.visual.vertex_colors[used]
-    for key, value in mesh.vertex_attributes.items():
-        part.vertex_attributes[key] = np.asarray(value)[used]
-    return part
-
-
-def face_components(mesh: trimesh.Trimesh) -> list[np.ndarray]:
-    """Face indices of each edge-connected component, largest first.
-
-    Examples
-    --------
-    >>> import trimesh
-    >>> box = trimesh.creation.box()
-    >>> two = trimesh.util.concatenate([box, box.copy().apply_translation([3, 0, 0])])
-    >>> [len(c) for c in face_components(two)]
-    [12, 12]
-    """
-    labels = trimesh.graph.connected_component_labels(mesh.face_adjacency, node_count=len(mesh.faces))
-    order = np.argsort(labels, kind="stable")
-    groups = np.split(order, np.flatnonzero(np.diff(labels[order])) + 1)
-    return sorted(groups, key=len, reverse=True)
 
 
 def encode_bodies(bodies: Sequence[trimesh.Trimesh], suffix: str, names: Sequence[str] | None = None,

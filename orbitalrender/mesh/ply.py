@@ -32,6 +32,8 @@ from collections.abc import Sequence
 import numpy as np
 import trimesh
 
+from .bodies import concatenate
+
 __all__ = ["SUFFIX", "encode_ply"]
 
 SUFFIX = ".ply"
@@ -71,13 +73,9 @@ def encode_ply(bodies: Sequence[trimesh.Trimesh], comment: str = "") -> bytes:
 
 
 def _concatenate(bodies: Sequence[trimesh.Trimesh]) -> trimesh.Trimesh:
-    """One mesh from several, keeping colours and float vertex attributes; adds ``body``."""
-    if len(bodies) == 1:
-        mesh = bodies[0].copy()
-    else:
-        mesh = trimesh.util.concatenate(list(bodies))
-        for key in bodies[0].vertex_attributes:
-            mesh.vertex_attributes[key] = np.concatenate([b.vertex_attributes[key] for b in bodies])
+    """One mesh from several with a ``body`` index per vertex; float attributes as float32."""
+    mesh = concatenate(bodies)
+    if len(bodies) > 1:
         mesh.vertex_attributes["body"] = np.concatenate(
             [np.full(len(b.vertices), i, dtype=np.int32) for i, b in enumerate(bodies)])
     for key, value in list(mesh.vertex_attributes.items()):

@@ -43,7 +43,8 @@ from ..lattice.grid import Lattice
 from ..picture.colormap import real_rotation
 from ..surface.extract import _interpolated_psi, _march, _touches_boundary, vertex_normals
 from ..surface.model import Surface
-from .export import SUPPORT_RGBA, face_components, submesh
+from .bodies import concatenate, face_components, submesh
+from .export import SUPPORT_RGBA
 
 __all__ = [
     "PrintOptions",
@@ -195,17 +196,8 @@ def solid_parts(mesh: trimesh.Trimesh) -> list[trimesh.Trimesh]:
         if owner is None:
             raise UserInputError("the surface has an inward-facing part that lies in no solid piece")
         members[owner].append(i)
-    parts = [_concatenate([comps[k] for k in members[j]]) for j in outers]
+    parts = [concatenate([comps[k] for k in members[j]]) for j in outers]
     return sorted(parts, key=lambda p: float(p.volume), reverse=True)
-
-
-def _concatenate(meshes: list[trimesh.Trimesh]) -> trimesh.Trimesh:
-    if len(meshes) == 1:
-        return meshes[0]
-    out = trimesh.util.concatenate(meshes)
-    for key in meshes[0].vertex_attributes:
-        out.vertex_attributes[key] = np.concatenate([m.vertex_attributes[key] for m in meshes])
-    return out
 
 
 def _inside_intervals(mesh: trimesh.Trimesh, origin: np.ndarray, direction: np.ndarray
