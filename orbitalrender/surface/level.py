@@ -57,6 +57,8 @@ _POLAR_NODES_2D, _AZIMUTH_NODES_2D = 384, 768
 _POLAR_GRID = (2048, 1024)
 #: Becke grid of the "space-grid" rule, per centre (r, cos theta, phi).
 _SPACE_GRID = (320, 96, 192)
+#: Every this many directions bracket the level before the full grid refines it.
+_BRACKET_STRIDE = 8
 #: Log-spaced bins of the first pass over a user lattice.
 _HIST_BINS = 4096
 #: ... covering this many decades below the maximum (lower densities hold no share F
@@ -220,6 +222,22 @@ def _common_m(state: State) -> bool:
     return state.is_single_centre and len({t.m for t in state.terms}) == 1
 
 
+def _central_change(d: np.ndarray, axis: int) -> np.ndarray:
+    """|d[i+1] - d[i-1]| / 2 along `axis` (one-sided at the two ends): how much d changes
+    across the cell of each node."""
+    d = np.moveaxis(d, axis, 0)
+    out = np.empty_like(d)
+    out[1:-1] = 0.5 * np.abs(d[2:] - d[:-2])
+    out[0] = np.abs(d[1] - d[0])
+    out[-1] = np.abs(d[-1] - d[-2])
+    return np.moveaxis(out, 0, axis)
+
+
+def _smoothed_mass(lines: np.ndarray, mass: np.ndarray, jump: np.ndarray, level: float) -> float:
+    """sum of mass x (share of each node's radial cell with density >= level)."""
+    return float(np.vdot(mass, np.clip(0.5 + (lines - level) / jump, 0.0, 1.0)))
+
+
 def _lines_level(lines: np.ndarray, mass: np.ndarray, fraction: float) -> tuple[float, float]:
     """Level and P(level) from densities on radial lines, shape (..., radius, direction).
 
@@ -227,23 +245,31 @@ def _lines_level(lines: np.ndarray, mass: np.ndarray, fraction: float) -> tuple[
     reaches the level is taken from the density varying linearly across the cell (its
     change to the neighbouring nodes), so P(t) is continuous and the boundary along
     every line is placed to a fraction of a cell.  What is left is the angular rule,
-    which then integrates a continuous function.
+    which then integrates a continuous function.  The root is bracketed on every
+    eighth direction first, then found using only the nodes whose cells straddle the
+    bracket.
     """
-    jump = np.empty_like(lines)
-    jump[..., 1:-1, :] = 0.5 * np.abs(lines[..., 2:, :] - lines[..., :-2, :])
-    jump[..., 0, :] = np.abs(lines[..., 1, :] - lines[..., 0, :])
-    jump[..., -1, :] = np.abs(lines[..., -1, :] - lines[..., -2, :])
+    jump = _central_change(lines, -2)
     np.maximum(jump, np.finfo(float).tiny, out=jump)
-
-    def enclosed(level: float) -> float:
-        inside = np.clip(0.5 + (lines - level) / jump, 0.0, 1.0)
-        return float(np.vdot(mass, inside))
-
     top = float(lines.max())
-    log_t = brentq(lambda s: enclosed(math.exp(s)) - fraction, math.log(top) - 80.0,
-                   math.log(top), xtol=1e-10)
+    sub = (Ellipsis, slice(None, None, _BRACKET_STRIDE))
+    ls, ms, js = (np.ascontiguousarray(a[sub]) for a in (lines, mass, jump))
+    scale = float(mass.sum()) / float(ms.sum())
+    log_c = brentq(lambda s: scale * _smoothed_mass(ls, ms, js, math.exp(s)) - fraction,
+                   math.log(top) - 80.0, math.log(top), xtol=1e-4)
+    lo, hi = log_c - 0.05, min(log_c + 0.05, math.log(top))
+    while _smoothed_mass(lines, mass, jump, math.exp(lo)) < fraction:
+        lo -= 0.5
+    while hi < math.log(top) and _smoothed_mass(lines, mass, jump, math.exp(hi)) > fraction:
+        hi = min(hi + 0.5, math.log(top))
+    t_lo, t_hi = math.exp(lo), math.exp(hi)
+    band = (lines + 0.5 * jump > t_lo) & (lines - 0.5 * jump < t_hi)
+    inside = float(np.sum(mass[(lines - 0.5 * jump >= t_hi)]))
+    lb, mb, jb = lines[band], mass[band], jump[band]
+    log_t = brentq(lambda s: inside + _smoothed_mass(lb, mb, jb, math.exp(s)) - fraction,
+                   lo, hi, xtol=1e-10)
     level = math.exp(log_t)
-    return level, enclosed(level)
+    return level, inside + _smoothed_mass(lb, mb, jb, level)
 
 
 def _polar_grid(state: State, fraction: float) -> tuple[float, float]:
@@ -324,13 +350,36 @@ def _lattice_level(density: np.ndarray, fraction: float) -> tuple[float, float]:
     return _level_from_points(picked, picked / total, fraction, above)
 
 
+def _subvoxel_share(density: np.ndarray, level: float, total: float) -> float:
+    """Enclosed share with each voxel counted by the part of it above the level, taken from
+    the density varying linearly across the voxel (the sum of its changes along the axes
+    is its spread across a voxel whatever the direction of the boundary)."""
+    n = density.shape[0]
+    step = max(1, _CHUNK // max(1, density.shape[1] * density.shape[2]))
+    share = 0.0
+    for i0 in range(0, n, step):
+        i1 = min(n, i0 + step)
+        a, b = max(0, i0 - 1), min(n, i1 + 1)
+        d = density[a:b].astype(np.float64)
+        spread = _central_change(d, 1) + _central_change(d, 2)
+        if d.shape[0] > 1:
+            spread += _central_change(d, 0)
+        inner = slice(i0 - a, i0 - a + (i1 - i0))
+        d, spread = d[inner], np.maximum(spread[inner], np.finfo(float).tiny)
+        share += float(np.sum(d * np.clip(0.5 + (d - level) / spread, 0.0, 1.0)))
+    return share / total
+
+
 def _lattice_result(lattice: Lattice, fraction: float) -> LevelResult:
     density = lattice.density()
     level, enclosed = _lattice_level(density, fraction)
+    total = float(np.sum(density, dtype=np.float64))
+    refined = _subvoxel_share(density, level, total)
     half = density[::2, ::2, ::2]
-    half_total = float(np.sum(half, dtype=np.float64))
-    half_enclosed = float(np.sum(half[half >= level], dtype=np.float64)) / half_total
-    return LevelResult(level, fraction, enclosed, abs(half_enclosed - enclosed), "lattice")
+    half_enclosed = float(np.sum(half[half >= level], dtype=np.float64)) / float(
+        np.sum(half, dtype=np.float64))
+    error = abs(refined - enclosed) + abs(half_enclosed - enclosed)
+    return LevelResult(level, fraction, enclosed, error, "lattice")
 
 
 def level_for_fraction(source: State | Lattice, fraction: float, method: str = "auto") -> LevelResult:
@@ -362,9 +411,11 @@ def level_for_fraction(source: State | Lattice, fraction: float, method: str = "
     -----
     The factorised rule reaches |P(t) - F| of order 1e-6 for eigenstates up to n = 6;
     the grid rules are good to about 1e-4 (both checked in tests/test_level.py against
-    independent quadratures).  For a user field, ``fraction_error`` is the change of the
-    enclosed share when only every second lattice point (in each direction) is used:
-    the sampling error of the full lattice is usually smaller.
+    independent quadratures).  For a user field, ``fraction_error`` is an
+    order-of-magnitude estimate of the lattice sampling error: the change of the enclosed
+    share when each voxel is counted by the part of it above the level (density linear
+    across the voxel), plus the change when only every second point is used.  Tests find
+    the true error within three times this estimate.
 
     Examples
     --------

@@ -46,6 +46,9 @@ class Topology:
         Total surface area (a0^2).
     closed : bool
         Every edge is shared by exactly two faces.
+    regions : int
+        Connected pieces of the enclosed solid: parts with a positive volume (outer
+        boundaries).  A hollow shell has two surface parts but is one region.
     """
 
     components: int
@@ -55,6 +58,7 @@ class Topology:
     volume_a0_3: float
     area_a0_2: float
     closed: bool
+    regions: int
 
     def as_dict(self) -> dict:
         """JSON-ready dictionary (plain ints, floats, lists and bools)."""
@@ -66,6 +70,7 @@ class Topology:
             "volume_a0_3": float(self.volume_a0_3),
             "area_a0_2": float(self.area_a0_2),
             "closed": bool(self.closed),
+            "regions": int(self.regions),
         }
 
 
@@ -112,8 +117,8 @@ def topology(surface: Surface) -> Topology:
     >>> f = np.array([[0, 2, 1], [0, 1, 3], [0, 3, 2], [1, 2, 3]])
     >>> s = Surface(v, f, v, np.ones(4, complex), 1.0, None, None, None, (2, 2, 2), (1, 1, 1))
     >>> t = topology(s)
-    >>> t.components, t.genus, round(t.volume_a0_3, 6), t.closed
-    (1, (0,), 0.166667, True)
+    >>> t.components, t.genus, round(t.volume_a0_3, 6), t.closed, t.regions
+    (1, (0,), 0.166667, True, 1)
     """
     faces = surface.faces
     verts = surface.vertices_a0
@@ -134,7 +139,8 @@ def topology(surface: Surface) -> Topology:
     genus = tuple(int((2 - x) // 2) if ok else None for x, ok in zip(chi, closed_part))
     return Topology(components=count, euler_characteristics=tuple(int(x) for x in chi), genus=genus,
                     volumes_a0_3=tuple(float(v) for v in volumes), volume_a0_3=float(volumes.sum()),
-                    area_a0_2=float(area.sum()), closed=bool(closed_part.all()))
+                    area_a0_2=float(area.sum()), closed=bool(closed_part.all()),
+                    regions=int(np.count_nonzero(volumes > 0)))
 
 
 def split_components(surface: Surface) -> list[Surface]:
