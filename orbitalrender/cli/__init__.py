@@ -2,7 +2,9 @@
 
 Exit status 0 on success, 2 for a mistake in the user's input (one line on
 stderr), 1 for a fault inside the tool (a short message; ``--debug`` shows the
-traceback).
+traceback) or when the system refuses, e.g. a full disk (one line).  A file that
+could not be written completely is never left behind: outputs go through
+:func:`orbitalrender.atomic.atomic_path`.
 """
 
 from __future__ import annotations
@@ -61,6 +63,11 @@ def main(argv: list[str] | None = None) -> int:
         if args.debug:
             traceback.print_exc()
         return 2
+    except OSError as exc:  # the system refused (a full disk, a device error): not the input, not a bug
+        print(f"orbitalrender {args.command}: error: {exc}", file=sys.stderr)
+        if args.debug:
+            traceback.print_exc()
+        return 1
     except KeyboardInterrupt:
         print("orbitalrender: interrupted", file=sys.stderr)
         return 130
