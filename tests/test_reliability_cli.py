@@ -1,0 +1,329 @@
+"""Exit statuses of every command: a mistake in the input gives one line on stderr and
+status 2, a fault inside the tool a short message and status 1 (traceback with --debug).
+
+The commands are run through :func:`orbitalrender.cli.main` (a few through
+``python -m orbitalrender`` in a subprocess).  Status 2 for usage errors is the
+convention of POSIX utilities and of Python's argparse (common practice); the
+one-line shape is the tool's own rule.
+"""
+
+from __future__ import annotations
+
+import os
+import subprocess
+import sys
+import textwrap
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from orbitalrender.cli import COMMANDS, main
+from orbitalrender.lattice import memory
+
+REPO = Path(__file__).resolve().parents[1]
+
+
+def run_cli(argv: list[str], capsys) -> tuple[int, str, str]:
+    """(exit status, stdout, stderr) of the command line, in this process."""
+    try:
+        status = main([str(a) for a in argv])
+    except SystemExit as exc:  # argparse refuses unknown options and choices itself
+        status = exc.code
+    out, err = capsys.readouterr()
+    return status, out, err
+
+
+def assert_one_line_error(status: int, err: str, *fragments: str) -> str:
+    """Status 2, exactly one line on stderr that names the command and says 'error',
+    contains every fragment, and no traceback."""
+    assert status == 2, err
+    lines = err.strip().splitlines()
+    assert len(lines) == 1, err
+    assert "Traceback" not in err
+    line = lines[0]
+    assert line.startswith("orbitalrender") and "error:" in line, line
+    for fragment in fragments:
+        assert fragment in line, (fragment, line)
+    return line
+
+
+# A quick valid run of each command (small lattice, small picture), its output file, and
+# a function inside the command that a test can make fail as an internal fault would.
+def _gallery_config(tmp: Path) -> Path:
+    cfg = tmp / "g.toml"
+    cfg.write_text('[[outputs]]\nname = "p2"\nkind = "radial"\nstates = ["2pz"]\n', encoding="utf-8")
+    return cfg
+
+
+QUICK = {
+    "describe": (lambda t: ["describe", "2,1,0"], None, "orbitalrender.cli.describe.describe_state"),
+    "figure": (lambda t: ["figure", "2pz", "--resolution", "20", "--size", "240x160", "--supersample", "1",
+                          "--out", t / "f.png"], "f.png", "orbitalrender.cli.figure.figure_3d"),
+    "mesh": (lambda t: ["mesh", "2pz", "--fraction", "0.8", "--resolution", "20", "--out", t / "m.ply"],
+             "m.ply", "orbitalrender.cli.mesh.surface_mesh"),
+    "section": (lambda t: ["section", "2pz", "--pixels", "32", "--out", t / "s.png"], "s.png",
+                "orbitalrender.cli.section.save_figure"),
+    "radial": (lambda t: ["radial", "2pz", "--out", t / "r.png"], "r.png",
+               "orbitalrender.cli.radial.save_figure"),
+    "gallery": (lambda t: ["gallery", _gallery_config(t), "--out", t / "g", "--jobs", "1", "--quiet"],
+                "g/p2.png", "orbitalrender.cli.gallery.run_gallery"),
+}
+
+
+def _boom(*args, **kwargs):
+    raise RuntimeError("simulated internal fault")
+
+
+def test_every_command_is_covered_here():
+    # a new command must get a quick run and a fault point in QUICK (and bad inputs below)
+    assert set(COMMANDS) <= set(QUICK)
+
+
+@pytest.mark.parametrize("command", sorted(COMMANDS))
+def test_quick_run_succeeds(command, tmp_path, capsys, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    argv, output, _ = QUICK[command]
+    status, out, err = run_cli(argv(tmp_path), capsys)
+    assert status == 0, err
+    if output:
+        assert (tmp_path / output).stat().st_size > 0
+
+
+@pytest.mark.parametrize("command", sorted(COMMANDS))
+@pytest.mark.parametrize("debug", [False, True])
+def test_internal_fault_is_status_1_with_traceback_only_on_debug(command, debug, tmp_path, capsys,
+                                                                  monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    argv, _, target = QUICK[command]
+    monkeypatch.setattr(target, _boom)
+    status, _, err = run_cli((["--debug"] if debug else []) + argv(tmp_path), capsys)
+    assert status == 1, err
+    assert "internal error" in err and "RuntimeError" in err and "simulated internal fault" in err
+    assert ("Traceback" in err) == debug
+    if not debug:
+        assert len(err.strip().splitlines()) == 1 and "--debug" in err
+
+
+def test_gallery_output_with_an_internal_fault_is_status_1(tmp_path, capsys, monkeypatch):
+    # a fault while drawing one output: the run finishes, the output is reported, status 1
+    monkeypatch.setattr("orbitalrender.picture.output.write_report", _boom)
+    status, out, err = run_cli(QUICK["gallery"][0](tmp_path), capsys)
+    assert status == 1
+    assert "made 0 of 1" in out
+    assert "output 'p2'" in err and "RuntimeError" in err and "Traceback" not in err
+
+
+# -- bad input: (command, arguments after the quick run's, fragment of the message) ------------
+_NAN_FIELD = "nan_field.npy"
+_ZERO_FIELD = "zero_field.npy"
+
+
+def _fields(tmp: Path) -> None:
+    values = np.ones((8, 8, 8))
+    values[2, 3, 4] = np.nan
+    np.save(tmp / _NAN_FIELD, values)
+    np.save(tmp / _ZERO_FIELD, np.zeros((8, 8, 8)))
+
+
+STATE_ERRORS = [
+    ("2,5,0", "l must satisfy 0 <= l < n"),
+    ("2,1,3", "m"),
+    ("0,0,0", "n"),
+    ("9x", "STATE '9x'"),
+    ("1s - 1s", "zero norm"),  # coefficients that cancel
+    ("3,1,0@(0,0,nan)", "STATE"),
+]
+OPTION_ERRORS = [
+    (["--Z", "nan"], "Z must be"),
+    (["--Z", "-1"], "Z must be positive"),
+    (["--Z", "inf"], "Z must be"),
+    (["--nucleus", "bogus"], "unknown nucleus 'bogus'"),
+    (["--nucleus", "nan"], "positive"),
+    (["--time", "nan"], "time must be finite"),
+]
+COMMAND_ERRORS = {
+    "describe": [
+        (["--bogus"], "unrecognized arguments: --bogus"),
+        (["--field", "missing.npy"], "no such file"),
+        (["--field", _NAN_FIELD, "--spacing-a0", "0.5"], "NaN or infinite at index (2, 3, 4)"),
+        (["--field", _ZERO_FIELD, "--spacing-a0", "0.5"], "zero everywhere"),
+        (["--field", _NAN_FIELD], "spacing"),
+    ],
+    "figure": [
+        (["--fraction", "nan"], "--fraction"),
+        (["--fraction", "1"], "--fraction"),
+        (["--resolution", "4"], "resolution must be at least 8"),
+        (["--resolution", "5000"], "the largest resolution that fits is"),
+        (["--box", "0.5"], "edge of the lattice"),
+        (["--box", "nan"], "half-width"),
+        (["--fraction", "0.0001"], "the surface is empty"),
+        (["--zoom", "nan"], "zoom"),
+        (["--azimuth", "inf"], "azimuth"),
+        (["--size", "10x10"], "64 to 8192"),
+        (["--size", "axb"], "cannot read the size"),
+        (["--supersample", "9"], "--supersample"),
+        (["--dpi", "nan"], "--dpi"),
+        (["--cutaway", "w>3"], "cannot read the cutaway"),
+        (["--times", "a,b"], "--times"),
+        (["--out", "x.bmp"], ".bmp"),
+        (["--out", "no/such/folder/x.png"], "does not exist"),
+        (["--phase-map", "rainbow"], "invalid choice"),
+    ],
+    "mesh": [
+        (["--fraction", "0"], "fraction"),
+        (["--fraction", "0.999999"], "edge of the lattice"),
+        (["--resolution", "5000"], "the largest resolution that fits is"),
+        (["--out", "m.xyz"], ".xyz"),
+        (["--size-mm", "-3"], "millimetres"),
+        (["--size-mm", "nan"], "millimetres"),
+        (["--printable"], "--size-mm"),
+        (["--split", "phase", "--bands", "0"], "phase bands"),
+        (["--size-mm", "40", "--printable", "--min-thickness-mm", "nan"], "thickness"),
+    ],
+    "section": [
+        (["--pixels", "3"], "--pixels"),
+        (["--normal", "0,0,0"], "zero vector"),
+        (["--normal", "nan,1,0"], "--normal"),
+        (["--extent", "-1"], "--extent"),
+        (["--offset", "inf"], "--offset"),
+        (["--offset", "1e6"], "misses"),
+        (["--decades", "nan"], "--decades"),
+        (["--field", _NAN_FIELD, "--spacing-a0", "0.5"], "NaN or infinite at index (2, 3, 4)"),
+    ],
+    "radial": [
+        (["--quantity", "bogus"], "--quantity"),
+        (["--fraction", "2"], "--fraction"),
+        (["--dpi", "0"], "dots per inch"),
+    ],
+}
+
+
+def _with_state(command: str, tmp: Path, state: str | None, extra: list[str]) -> list:
+    """The quick run of `command` with its STATE replaced (or left out) and `extra` appended."""
+    argv = QUICK[command][0](tmp)
+    return [argv[0]] + ([] if state is None else [state]) + argv[2:] + extra
+
+
+_STATE_COMMANDS = [c for c in ("describe", "figure", "mesh", "section", "radial") if c in COMMANDS]
+
+
+@pytest.mark.parametrize("command", _STATE_COMMANDS)
+@pytest.mark.parametrize("state, fragment", STATE_ERRORS)
+def test_bad_state_is_one_line_and_status_2(command, state, fragment, tmp_path, capsys, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    status, _, err = run_cli(_with_state(command, tmp_path, state, []), capsys)
+    assert_one_line_error(status, err, fragment)
+    assert not any(p.name.endswith((".png", ".ply")) for p in tmp_path.iterdir())
+
+
+@pytest.mark.parametrize("command", _STATE_COMMANDS)
+@pytest.mark.parametrize("extra, fragment", OPTION_ERRORS)
+def test_bad_physics_option_is_one_line_and_status_2(command, extra, fragment, tmp_path, capsys,
+                                                     monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    status, _, err = run_cli(_with_state(command, tmp_path, "2pz", extra), capsys)
+    assert_one_line_error(status, err, fragment)
+
+
+@pytest.mark.parametrize("command, extra, fragment",
+                         [(c, e, f) for c, cases in COMMAND_ERRORS.items() if c in COMMANDS
+                          for e, f in cases])
+def test_bad_option_is_one_line_and_status_2(command, extra, fragment, tmp_path, capsys, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    _fields(tmp_path)
+    uses_field = "--field" in extra
+    status, _, err = run_cli(_with_state(command, tmp_path, None if uses_field else "2pz", extra), capsys)
+    assert_one_line_error(status, err, fragment)
+
+
+GALLERY_ERRORS = [
+    ('[[outputs]]\nname = "a"\nkind = "figure"\nstate = "2pz"\nfraction = 1.5\n', "key 'fraction'"),
+    ('[[outputs\nname = "a"\n', "not valid TOML"),
+    ('[[outputs]]\nname = "a"\nkind = "radial"\nstates = ["2,7,0"]\n', "key 'states'"),
+    ('[[outputs]]\nname = "a"\nkind = "figure"\nstate = "2pz"\nresolution = 4000\n', "key 'resolution'"),
+    ('[[outputs]]\nname = "a"\nkind = "hologram"\nstate = "2pz"\n', "key 'kind'"),
+    ('[[outputs]]\nname = "a"\nkind = "figure"\nstate = "2pz"\nbogus = 1\n', "key 'bogus'"),
+    ('[[outputs]]\nname = "a"\nkind = "figure"\nfield = "missing.npy"\n', "key 'field'"),
+    ('title = "nothing"\n', "outputs"),
+]
+
+
+@pytest.mark.skipif("gallery" not in COMMANDS, reason="no gallery command")
+@pytest.mark.parametrize("text, fragment", GALLERY_ERRORS)
+def test_bad_gallery_config_is_one_line_status_2_and_writes_nothing(text, fragment, tmp_path, capsys):
+    cfg = tmp_path / "bad.toml"
+    cfg.write_text(text, encoding="utf-8")
+    status, _, err = run_cli(["gallery", cfg, "--out", tmp_path / "out", "--jobs", "1"], capsys)
+    assert_one_line_error(status, err, "bad.toml", fragment)
+    assert not (tmp_path / "out").exists() or not any((tmp_path / "out").iterdir())
+
+
+@pytest.mark.skipif("gallery" not in COMMANDS, reason="no gallery command")
+@pytest.mark.parametrize("content", [b"\xff\xfe", None])
+def test_unreadable_or_missing_gallery_config_is_status_2(content, tmp_path, capsys):
+    cfg = tmp_path / "g.toml"
+    if content is not None:
+        cfg.write_bytes(content)
+    status, _, err = run_cli(["gallery", cfg, "--out", tmp_path / "out"], capsys)
+    assert_one_line_error(status, err, "g.toml")
+
+
+@pytest.mark.skipif("gallery" not in COMMANDS, reason="no gallery command")
+def test_gallery_output_that_fails_on_its_input_is_status_2(tmp_path, capsys):
+    # valid keys, but the box cuts the surface open: that output fails, the run reports it
+    cfg = tmp_path / "g.toml"
+    cfg.write_text('[[outputs]]\nname = "cut"\nkind = "mesh"\nstate = "2pz"\nbox_a0 = 0.5\n'
+                   'resolution = 16\n', encoding="utf-8")
+    status, out, err = run_cli(["gallery", cfg, "--out", tmp_path / "out", "--jobs", "1", "--quiet"], capsys)
+    assert status == 2
+    assert "made 0 of 1" in out
+    assert "output 'cut'" in err and "edge of the lattice" in err and "Traceback" not in err
+
+
+def test_missing_command_and_unknown_command_are_status_2(capsys):
+    for argv in ([], ["paint"]):
+        status, _, err = run_cli(argv, capsys)
+        assert_one_line_error(status, err)
+
+
+def test_memory_refusal_names_the_estimate_and_what_fits(tmp_path, capsys, monkeypatch):
+    monkeypatch.setattr(memory, "available_bytes", lambda: 256 * 2**20)
+    status, _, err = run_cli(["mesh", "4,3,1", "--fraction", "0.9", "--resolution", "400",
+                              "--out", tmp_path / "m.stl"], capsys)
+    line = assert_one_line_error(status, err, "400^3", "GiB", "largest resolution that fits is")
+    largest = int(line.rsplit(" ", 1)[1])
+    # the named resolution really fits the same budget, and one more does not
+    need = memory.sampling_bytes(largest) + largest**3 * memory.surface_bytes_per_point()
+    need_next = memory.sampling_bytes(largest + 1) + (largest + 1) ** 3 * memory.surface_bytes_per_point()
+    assert need <= 0.8 * 256 * 2**20 < need_next
+
+
+# -- through the real entry point ----------------------------------------------------------
+def _python(*args: str, code: str | None = None) -> subprocess.CompletedProcess:
+    """``python -m orbitalrender ARGS``, or ``python -c CODE ARGS``."""
+    env = dict(os.environ, PYTHONPATH=str(REPO) + os.pathsep + os.environ.get("PYTHONPATH", ""))
+    cmd = [sys.executable, "-c", code, *args] if code else [sys.executable, "-m", "orbitalrender", *args]
+    return subprocess.run(cmd, capture_output=True, text=True, timeout=180, cwd=REPO, env=env)
+
+
+def test_subprocess_bad_input_is_one_line_and_status_2():
+    done = _python("describe", "2,5,0")
+    assert done.returncode == 2 and done.stderr.count("\n") == 1 and "l must satisfy" in done.stderr
+    assert done.stdout == ""
+
+
+def test_subprocess_internal_fault_with_debug_is_status_1_and_shows_the_traceback():
+    code = textwrap.dedent("""
+        import sys
+        import orbitalrender.cli.describe as d
+        def boom(*a, **k):
+            raise RuntimeError("simulated internal fault")
+        d.describe_state = boom
+        from orbitalrender.cli import main
+        sys.exit(main(sys.argv[1:]))
+    """)
+    debug = _python("--debug", "describe", "2pz", code=code)
+    assert debug.returncode == 1
+    assert "internal error: RuntimeError: simulated internal fault" in debug.stderr
+    assert "Traceback" in debug.stderr and "boom" in debug.stderr
