@@ -2,6 +2,7 @@
 
 import math
 import re
+import zlib
 
 import numpy as np
 import pytest
@@ -232,6 +233,18 @@ def test_svg_and_pdf_keep_the_lines_as_vectors(tmp_path):
     assert svg.count("<image") >= 1  # the density is a raster image
     pdf = save_figure(fig, tmp_path / "s.pdf", {"state": "2s"}).read_bytes()
     assert b"/Subtype /Image" in pdf
+    # page content (Flate streams, ISO 32000-1 sec. 7.4.4): the circles are stroked polylines,
+    # hundreds of "l" (line-to) operators, not pixels
+    content = b"".join(zlib.decompressobj().decompress(m.group(1)) for m in
+                       re.finditer(rb"stream\r?\n(.*?)\r?\nendstream", pdf, re.S) if m.group(1)[:1] == b"x")
+    assert len(re.findall(rb" l\n", content)) > 200 and b"\nS\n" in content
+
+
+def test_same_inputs_same_picture(tmp_path):
+    def draw(name):
+        s = cross_section(eigenstate(3, 2, 1), plane("xz"), 15.0, pixels=64, fraction=0.9)
+        return save_figure(section_figure(s, scale="log"), tmp_path / name, {"state": "3,2,1"}, dpi=50)
+    assert draw("a.png").read_bytes() == draw("b.png").read_bytes()
 
 
 def test_figure_looks_sane(tmp_path):

@@ -137,20 +137,22 @@ class Plane:
         d = self.distance_a0(point_a0)
         return tuple(float(p - d * nc) for p, nc in zip(point_a0, self.normal))
 
-    def describe(self, tex: bool = True) -> str:
-        """Short text for titles (matplotlib mathtext) or, with ``tex=False``, for messages.
+    def describe(self, tex: bool = True, units: str = "a0") -> str:
+        """Short text for titles (matplotlib mathtext) or, with ``tex=False``, for messages,
+        with the offset in `units`.
 
         Examples
         --------
         >>> plane("xz", 2).describe(tex=False)
         'xz plane, y = 2 a0'
         """
-        a0 = "$a_0$" if tex else "a0"
+        unit = unit_label(units) if tex else units
+        offset = self.offset_a0 * a0_to(units)
         if self.name:
             other = ({"x", "y", "z"} - set(self.name)).pop()
-            return f"{self.name} plane, {other} = {self.offset_a0:g} {a0}"
+            return f"{self.name} plane, {other} = {offset:.4g} {unit}"
         n = ", ".join(f"{c:.3g}" for c in self.normal)
-        return f"plane n = ({n}), n·r = {self.offset_a0:g} {a0}"
+        return f"plane n = ({n}), n·r = {offset:.4g} {unit}"
 
 
 def plane(spec: str | Sequence[float], offset_a0: float = 0.0) -> Plane:
@@ -736,7 +738,7 @@ def section_figure(section: Section, scheme: str = "uniform", scale: str = "line
     proxies = draw_section(ax, section, scheme, scale, decades, units, nodes)
     label = section.state.label if section.state is not None and section.state.label else "user field"
     if title is None:
-        title = f"{label}: {section.plane.describe()}"
+        title = f"{label}: {section.plane.describe(units=units)}"
     ax.set_title(title, fontsize=10)
     draw_phase_legend(fig.add_subplot(grid[0, 1]), scheme, fontsize=8)
     bar_slot = grid[1, 1].subgridspec(1, 3, width_ratios=(1.0, 0.35, 1.0))
