@@ -15,12 +15,10 @@ from ..picture.output import (
     check_dpi,
     check_output_paths,
     default_output_path,
-    figure_metadata,
     save_figure,
-    state_metadata,
     write_report,
 )
-from ..picture.radialplot import RADIAL_QUANTITIES, radial_figure
+from ..picture.radialplot import RADIAL_QUANTITIES, radial_figure, radial_metadata
 from .common import add_picture_arguments, add_state_arguments, state_from_args
 
 __all__ = ["register", "run", "parse_quantities"]
@@ -77,10 +75,7 @@ def run(args: argparse.Namespace) -> int:
         out = default_output_path(" ".join(labels), "radial")
         check_writable(out)
     fig, marks = radial_figure(states, quantities, args.fraction, args.units, title=args.title)
-    metadata = figure_metadata(states[0] if len(states) == 1 else None, args.fraction, None, None,
-                               command="radial", title=", ".join(labels),
-                               states=[state_metadata(s) for s in states], quantities=quantities,
-                               units=args.units, dpi=args.dpi, marks=[m.as_dict() for m in marks])
+    metadata = radial_metadata(states, marks, quantities, args.units, dpi=args.dpi)
     save_figure(fig, out, metadata, dpi=args.dpi)
     if args.report:
         write_report(args.report, metadata | {"file": str(out)})

@@ -19,7 +19,6 @@ from ..picture.output import (
     check_dpi,
     check_output_paths,
     default_output_path,
-    figure_metadata,
     save_figure,
     write_report,
 )
@@ -29,9 +28,9 @@ from ..picture.section import (
     MIN_PIXELS,
     PLANE_NAMES,
     cross_section,
-    nodal_lines,
     plane,
     section_figure,
+    section_metadata,
 )
 from .common import (
     add_field_arguments,
@@ -140,17 +139,9 @@ def run(args: argparse.Namespace) -> int:
     section = cross_section(source, where, args.extent, args.pixels,
                             None if args.no_contour else args.fraction)
     fig = section_figure(section, args.phase_map, args.scale, args.decades, args.units,
-                         nodes=not args.no_nodes, title=args.title)
-    metadata = figure_metadata(
-        section.state, section.fraction_requested, section.level, args.pixels, command="section",
-        source=args.field, plane=where.name or None, normal=where.normal, offset_a0=where.offset_a0,
-        u_axis=where.u, v_axis=where.v, centre_a0=section.centre_a0,
-        half_width_a0=section.half_width_a0, pixel_a0=section.pixel_a0, exact=section.exact,
-        fraction_enclosed=section.fraction_enclosed, fraction_error=section.fraction_error,
-        level_method=section.level_method, nodal_lines=0 if args.no_nodes else len(nodal_lines(section)),
-        nodal_plane=section.is_nodal_plane, scale=args.scale,
-        decades=args.decades if args.scale == "log" else None, phase_map=args.phase_map,
-        units=args.units, dpi=args.dpi)
+                         nodes=not args.no_nodes, title=args.title, label=label)
+    metadata = section_metadata(section, args.phase_map, args.scale, args.decades, args.units,
+                                not args.no_nodes, source=args.field, dpi=args.dpi)
     save_figure(fig, out, metadata, dpi=args.dpi)
     if args.report:
         write_report(args.report, metadata | {"file": str(out)})

@@ -40,6 +40,7 @@ __all__ = [
     "radial_range_a0",
     "draw_radial",
     "radial_figure",
+    "radial_metadata",
 ]
 
 RADIAL_QUANTITIES = ("R", "density", "cumulative")
@@ -297,3 +298,25 @@ def radial_figure(states: Sequence[State], quantities: Sequence[str] = RADIAL_QU
         title = "Radial functions" if len(states) > 1 else f"Radial functions of {states[0].label}"
     fig.suptitle(title, fontsize=10, x=0.44, y=1.0 - 0.18 / height, va="top")
     return fig, marks
+
+
+def radial_metadata(states: Sequence[State], marks: Sequence[RadialMarks], quantities: Sequence[str],
+                    units: str = "a0", **extra) -> dict:
+    """The metadata of a radial figure: the common keys (the state, if there is one), every
+    state's terms, the quantities, the unit and the marked values; `extra` is added as is.
+
+    Examples
+    --------
+    >>> from orbitalrender.state.model import eigenstate
+    >>> s = eigenstate(2, 0, 0, label="2s")
+    >>> md = radial_metadata([s], [radial_marks(s)], ["R"])
+    >>> md["title"], md["marks"][0]["node_radii_a0"]
+    ('2s', [2.0])
+    """
+    from .output import figure_metadata, state_metadata
+
+    fraction = marks[0].fraction if marks else None
+    return figure_metadata(states[0] if len(states) == 1 else None, fraction, None, None,
+                           command="radial", title=", ".join(s.label for s in states),
+                           states=[state_metadata(s) for s in states], quantities=list(quantities),
+                           units=units, marks=[m.as_dict() for m in marks], **extra)

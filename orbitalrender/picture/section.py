@@ -56,6 +56,7 @@ __all__ = [
     "shade",
     "draw_section",
     "section_figure",
+    "section_metadata",
 ]
 
 PLANE_NAMES = ("xy", "xz", "yz")
@@ -715,12 +716,14 @@ def _vector_text(values: Sequence[float]) -> str:
 
 def section_figure(section: Section, scheme: str = "uniform", scale: str = "linear",
                    decades: float = 3.0, units: str = "a0", nodes: bool = True,
-                   title: str | None = None, width_in: float = 6.4) -> matplotlib.figure.Figure:
+                   title: str | None = None, width_in: float = 6.4,
+                   label: str | None = None) -> matplotlib.figure.Figure:
     """A complete figure of `section`: the picture, with phase legend, opacity scale and a
     legend of the lines to its right.
 
-    Parameters are those of :func:`draw_section`; `title` defaults to the state label
-    and the plane, `width_in` is the figure width in inches (height 0.75 of it).
+    Parameters are those of :func:`draw_section`; `title` defaults to `label` (default
+    the state label, or "user field"), the time if it is not 0, and the plane;
+    `width_in` is the figure width in inches (height 0.75 of it).
 
     Examples
     --------
@@ -736,7 +739,11 @@ def section_figure(section: Section, scheme: str = "uniform", scale: str = "line
                             left=0.1, right=0.95, bottom=0.1, top=0.88, wspace=0.12, hspace=0.3)
     ax = fig.add_subplot(grid[:, 0])
     proxies = draw_section(ax, section, scheme, scale, decades, units, nodes)
-    label = section.state.label if section.state is not None and section.state.label else "user field"
+    state = section.state
+    if label is None:
+        label = state.label if state is not None and state.label else "user field"
+    if state is not None and state.time_au != 0.0:
+        label += f" at t = {state.time_au:.4g} au"
     if title is None:
         title = f"{label}: {section.plane.describe(units=units)}"
     ax.set_title(title, fontsize=10)
@@ -751,3 +758,32 @@ def section_figure(section: Section, scheme: str = "uniform", scale: str = "line
         lax.text(0.5, 0.0, f"u = {_vector_text(section.plane.u)}\nv = {_vector_text(section.plane.v)}",
                  transform=lax.transAxes, fontsize=7, color="0.3", ha="center", va="bottom")
     return fig
+
+
+def section_metadata(section: Section, scheme: str = "uniform", scale: str = "linear",
+                     decades: float = 3.0, units: str = "a0", nodes: bool = True,
+                     **extra) -> dict:
+    """The metadata of a section figure (:func:`orbitalrender.picture.output.figure_metadata`
+    keys plus the plane, window, level method, nodal line count and drawing options).
+
+    Parameters are those given to :func:`section_figure`; `extra` is added as is.
+
+    Examples
+    --------
+    >>> from orbitalrender.state.model import eigenstate
+    >>> s = cross_section(eigenstate(2, 0, 0), plane("xy"), 6.0, pixels=32, fraction=None)
+    >>> md = section_metadata(s)
+    >>> md["plane"], md["nodal_lines"], md["resolution"]
+    ('xy', 1, 32)
+    """
+    from .output import figure_metadata
+
+    where = section.plane
+    return figure_metadata(
+        section.state, section.fraction_requested, section.level, len(section.u_a0), command="section",
+        plane=where.name or None, normal=where.normal, offset_a0=where.offset_a0, u_axis=where.u,
+        v_axis=where.v, centre_a0=section.centre_a0, half_width_a0=section.half_width_a0,
+        pixel_a0=section.pixel_a0, exact=section.exact, fraction_enclosed=section.fraction_enclosed,
+        fraction_error=section.fraction_error, level_method=section.level_method,
+        nodal_lines=len(nodal_lines(section)) if nodes else 0, nodal_plane=section.is_nodal_plane,
+        scale=scale, decades=decades if scale == "log" else None, phase_map=scheme, units=units, **extra)
