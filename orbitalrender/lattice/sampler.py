@@ -1,23 +1,32 @@
 """Lattice sampler: evaluates psi of a State on a regular N^3 grid, in chunks, using exact symmetries.
 
 For a state whose terms all sit at the centre of a box that is symmetric about
-that centre, each term |n l m> is evaluated on one octant only and the other
-seven are filled from the exact reflections (Condon-Shortley phase)::
+that centre, psi is evaluated on one octant only and the other seven are filled
+from the exact reflections of each term |n l m> (Condon-Shortley phase)::
 
     psi(x, y, -z) = (-1)^(l+m) psi(x, y, z)
     psi(x, -y, z) = conj(psi(x, y, z))
     psi(-x, y, z) = (-1)^m conj(psi(x, y, z))
 
-Any other state is evaluated slab by slab.  Either way the work arrays are
-bounded by a fixed chunk of points, so the peak memory is the output plus one
-octant plus a few tens of MiB.
+On that path the lattice coordinates from the centre are integers times one
+unit, so r^2 takes only about 3 N^2 distinct values: R_nl is tabulated there by
+:func:`orbitalrender.state.hydrogen.radial_function`.  One compiled loop (numba)
+then forms Y_l^m at each octant point by the recurrence of
+:mod:`orbitalrender.state.hydrogen` and writes the eight images at once, so the
+work needs no memory beyond the output and the small tables; the tests hold it
+equal to direct evaluation to round-off.  Any other state is evaluated slab by
+slab with numpy; its work arrays are bounded by a fixed chunk of points, so the
+peak memory is the output plus a few tens of MiB.
 """
 
 from __future__ import annotations
 
+import math
+
+import numba
 import numpy as np
 
-from ..state.hydrogen import psi_nlm_xyz
+from ..state.hydrogen import radial_function
 from ..state.model import State
 from ..state.radial import radius_holding
 from .grid import Box, Lattice
@@ -66,71 +75,129 @@ def _axis(box: Box, resolution: int, i: int) -> np.ndarray:
     return box.centre_a0[i] + h * (np.arange(resolution) - 0.5 * (resolution - 1))
 
 
-def _evaluate_slabs(fn, xs, ys, zs, out: np.ndarray, scale: complex = 1.0,
-                    accumulate: bool = False) -> None:
-    """out[i, j, k] (+)= scale * fn(xs[i], ys[j], zs[k]), slab by slab along x."""
+def _evaluate_slabs(fn, xs, ys, zs, out: np.ndarray) -> None:
+    """out[i, j, k] = fn(xs[i], ys[j], zs[k]), slab by slab along x."""
     per_slab = len(ys) * len(zs)
     step = max(1, _CHUNK_POINTS // per_slab)
     yy, zz = np.meshgrid(ys, zs, indexing="ij")
     for s in range(0, len(xs), step):
-        xv = xs[s:s + step, None, None]
-        block = fn(xv, yy[None], zz[None])
-        if scale != 1.0:
-            block = block * scale
-        if accumulate:
-            out[s:s + step] += block
-        else:
-            out[s:s + step] = block
+        out[s:s + step] = fn(xs[s:s + step, None, None], yy[None], zz[None])
 
 
-def _mirror_views(out: np.ndarray, half: int):
-    """The 8 (target view, flips) pairs that cover `out` from an octant of size `half`.
+@numba.njit(cache=True)
+def _fill_symmetric(out, xs, ys, zs, ixs, iys, izs, neg, coef, sign, l_, m_, radial_rl, q_mm,
+                    legendre_a, legendre_inv):
+    """out[...] = sum_t coef[t] psi_t, evaluated on the octant xs x ys x zs (coordinates >= 0
+    from the centre, lattice indices neg + a) and written to all eight mirror images.
 
-    flips[a] is True where axis a is reflected; the source for a reflected axis is the
-    octant reversed along that axis and cut to the length of the negative half.
+    psi_t = (R_t(r) / r^l) * (r^l Y_l^m): ixs, iys, izs are the octant coordinates as
+    integers in the unit u of the table, r^2 = u^2 (ix^2 + iy^2 + iz^2), and
+    radial_rl[t, ix^2 + iy^2 + iz^2] = R_t(r) / r^l.  The solid harmonic is
+    Q_l(z, r^2) (x + i y)^|m| with Q_j = q_j(cos theta) r^(j - |m|) from the recurrence of
+    state.hydrogen._legendre_q multiplied through by r^(j - |m|):
+    Q_j = a_j (z Q_{j-1} - r^2 Q_{j-2} / a_{j-1}).
+
+    The image reflected in x (fx), y (fy), z (fz) is sum_t coef[t] sign[t, fx + 2 fz] v_t,
+    with v_t conjugated when fx != fy.  Octant index a on an axis of N points maps to
+    N - neg - 1 - a on the reflected side when that is >= 0 (for odd N the centre plane
+    a = 0 has no image).
     """
-    n = out.shape[0]
-    neg = n // 2
-    for fx in (False, True):
-        for fy in (False, True):
-            for fz in (False, True):
-                target = tuple(slice(0, neg) if f else slice(neg, n) for f in (fx, fy, fz))
-                yield out[target], (fx, fy, fz)
+    top = out.shape[0] - neg - 1
+    terms = len(coef)
+    for a in range(len(xs)):
+        x = xs[a]
+        i0, i1 = neg + a, top - a
+        for b in range(len(ys)):
+            y = ys[b]
+            j0, j1 = neg + b, top - b
+            xy = complex(x, y)
+            for c in range(len(zs)):
+                z = zs[c]
+                k0, k1 = neg + c, top - c
+                r2 = x * x + y * y + z * z
+                s = ixs[a] * ixs[a] + iys[b] * iys[b] + izs[c] * izs[c]
+                # p[pattern], w[pattern]: plain and conjugated sums, pattern = fx + 2 fz
+                p0 = p1 = p2 = p3 = w0 = w1 = w2 = w3 = 0j
+                for t in range(terms):
+                    l, m = l_[t], m_[t]
+                    am = abs(m)
+                    prev = q_mm[t]
+                    q = prev
+                    if l > am:
+                        q = legendre_a[t, am + 1] * z * prev
+                        for j in range(am + 2, l + 1):
+                            prev, q = q, legendre_a[t, j] * (z * q - r2 * prev * legendre_inv[t, j - 1])
+                    v = complex(q * radial_rl[t, s], 0.0)
+                    for _ in range(am):
+                        v *= xy
+                    if m < 0:
+                        v = (-1) ** am * v.conjugate()
+                    plain, conj = coef[t] * v, coef[t] * v.conjugate()
+                    p0 += sign[t, 0] * plain
+                    p1 += sign[t, 1] * plain
+                    p2 += sign[t, 2] * plain
+                    p3 += sign[t, 3] * plain
+                    w0 += sign[t, 0] * conj
+                    w1 += sign[t, 1] * conj
+                    w2 += sign[t, 2] * conj
+                    w3 += sign[t, 3] * conj
+                # image (fx, fy, fz): plain sum if fx == fy, conjugated sum otherwise
+                out[i0, j0, k0] = p0
+                if k1 >= 0:
+                    out[i0, j0, k1] = p2
+                if j1 >= 0:
+                    out[i0, j1, k0] = w0
+                    if k1 >= 0:
+                        out[i0, j1, k1] = w2
+                if i1 >= 0:
+                    out[i1, j0, k0] = w1
+                    if k1 >= 0:
+                        out[i1, j0, k1] = w3
+                    if j1 >= 0:
+                        out[i1, j1, k0] = p1
+                        if k1 >= 0:
+                            out[i1, j1, k1] = p3
 
 
-def _source(octant: np.ndarray, flips, neg: int) -> np.ndarray:
-    src = octant
-    for axis, f in enumerate(flips):
-        if f:
-            src = np.flip(src, axis=axis)
-            src = src[(slice(None),) * axis + (slice(0, neg),)]
-    return src
+def _legendre_tables(state: State) -> tuple[np.ndarray, np.ndarray]:
+    """Per-term starting values q_mm and recurrence factors a_j of state.hydrogen._legendre_q."""
+    terms = state.terms
+    q_mm = np.empty(len(terms))
+    legendre_a = np.ones((len(terms), max(t.l for t in terms) + 2))
+    for idx, t in enumerate(terms):
+        am = abs(t.m)
+        q = 1.0 / math.sqrt(4.0 * math.pi)
+        for k in range(1, am + 1):
+            q *= -math.sqrt((2 * k + 1) / (2 * k))
+        q_mm[idx] = q
+        for j in range(am + 1, t.l + 1):
+            legendre_a[idx, j] = math.sqrt((4 * j * j - 1) / (j * j - am * am))
+    return q_mm, legendre_a
 
 
 def _sample_symmetric(state: State, box: Box, resolution: int, out: np.ndarray) -> None:
-    n = resolution
-    neg = n // 2
-    pos = [_axis(box, n, i)[neg:] - box.centre_a0[i] for i in range(3)]
-    octant = np.empty((n - neg,) * 3, dtype=out.dtype)
-    out[...] = 0
-    for term, phase in zip(state.terms, state.phase_factors()):
-        c = term.coefficient * phase
-
-        def fn(x, y, z, t=term):
-            return psi_nlm_xyz(t.n, t.l, t.m, x, y, z, state.Z, state.reduced_mass_ratio)
-
-        _evaluate_slabs(fn, *pos, octant)
-        for view, flips in _mirror_views(out, neg):
-            fx, fy, fz = flips
-            src = _source(octant, flips, neg)
-            sign = 1
-            if fx:
-                sign *= (-1) ** term.m
-            if fz:
-                sign *= (-1) ** (term.l + term.m)
-            if fx != fy:
-                src = np.conj(src)
-            view += (sign * c) * src
+    neg = resolution // 2
+    pos = [_axis(box, resolution, i)[neg:] - box.centre_a0[i] for i in range(3)]
+    # Octant coordinates are u * (2a + 1) for even N (u = h/2) and u * a for odd N (u = h),
+    # so r^2 / u^2 is an integer and R_nl is needed at only about 3 N^2 radii, not N^3 / 8.
+    h = 2.0 * box.half_width_a0 / (resolution - 1)
+    octant = np.arange(resolution - neg)
+    ints, unit = (2 * octant + 1, 0.5 * h) if resolution % 2 == 0 else (octant, h)
+    radii_a0 = unit * np.sqrt(np.arange(3 * int(ints[-1]) ** 2 + 1))
+    radial_rl = np.zeros((len(state.terms), len(radii_a0)))
+    for idx, t in enumerate(state.terms):
+        # R / r^l; at r = 0 (odd N) only l = 0 is nonzero, the solid harmonic vanishes otherwise.
+        radial_rl[idx, 1:] = (radial_function(t.n, t.l, radii_a0[1:], state.Z, state.reduced_mass_ratio)
+                              / radii_a0[1:] ** t.l)
+        if t.l == 0:
+            radial_rl[idx, 0] = radial_function(t.n, 0, 0.0, state.Z, state.reduced_mass_ratio)
+    coef = np.array([t.coefficient * p for t, p in zip(state.terms, state.phase_factors())])
+    # sign[t, fx + 2 fz] = (-1)^(m fx) (-1)^((l + m) fz): the parities in the module notes.
+    sign = np.array([[(-1.0) ** (t.m * fx + (t.l + t.m) * fz) for fz in (0, 1) for fx in (0, 1)]
+                     for t in state.terms])
+    q_mm, legendre_a = _legendre_tables(state)
+    _fill_symmetric(out, *pos, ints, ints, ints, neg, coef, sign, np.array([t.l for t in state.terms]),
+                    np.array([t.m for t in state.terms]), radial_rl, q_mm, legendre_a, 1.0 / legendre_a)
 
 
 def sample(state: State, resolution: int = 128, box: Box | None = None,
