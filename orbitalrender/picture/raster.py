@@ -42,7 +42,7 @@ class Fragments:
     ----------
     triangle : ndarray, int32, (H, W)
         Index of the nearest triangle, -1 where no triangle covers the pixel.
-    depth : ndarray, float64, (H, W)
+    depth : ndarray, float32, (H, W)
         Its view depth (distance along the viewing direction, larger = farther),
         +inf where empty.
     weights : ndarray, float32, (H, W, 3)
@@ -60,9 +60,24 @@ class Fragments:
 
 
 @numba.njit(cache=True, nogil=True)
-def _scan(px, py, zv, w, faces, clip, width, height, depth, tri, wts):  # pragma: no cover - compiled
+def _span(a, c, lo, hi):  # pragma: no cover - compiled
+    """Narrow [lo, hi] to the x where a x + c >= 0 (one edge function along a row)."""
+    if a > 0.0:
+        lo = max(lo, -c / a)
+    elif a < 0.0:
+        hi = min(hi, -c / a)
+    elif c < 0.0:
+        hi = lo - 1.0
+    return lo, hi
+
+
+@numba.njit(cache=True, nogil=True)
+def _scan(px, py, zv, w, faces, skip, clip, perspective, width, height,
+          depth, tri, wts):  # pragma: no cover - compiled
     n_clip = clip.shape[1]
     for t in range(faces.shape[0]):
+        if skip[t]:
+            continue
         i0 = faces[t, 0]
         i1 = faces[t, 1]
         i2 = faces[t, 2]
@@ -72,9 +87,24 @@ def _scan(px, py, zv, w, faces, clip, width, height, depth, tri, wts):  # pragma
         y1 = py[i1]
         x2 = px[i2]
         y2 = py[i2]
-        area = (x1 - x0) * (y2 - y0) - (x2 - x0) * (y1 - y0)
-        if area == 0.0 or not (w[i0] > 0.0 and w[i1] > 0.0 and w[i2] > 0.0):
+        if not (w[i0] > 0.0 and w[i1] > 0.0 and w[i2] > 0.0):
             continue
+        # edge functions E_k(x, y) = A_k x + B_k y + C_k, E_k = 0 on the edge opposite vertex k;
+        # a shared edge gets exactly opposite coefficients in its two triangles, so no pixel
+        # centre on it is lost to rounding
+        a0 = y1 - y2
+        b0 = x2 - x1
+        c0 = x1 * y2 - x2 * y1
+        a1 = y2 - y0
+        b1 = x0 - x2
+        c1 = x2 * y0 - x0 * y2
+        a2 = y0 - y1
+        b2 = x1 - x0
+        c2 = x0 * y1 - x1 * y0
+        area = c0 + c1 + c2
+        if area == 0.0:
+            continue
+        sign = 1.0 if area > 0.0 else -1.0
         inv_area = 1.0 / area
         xmin = max(int(np.floor(min(x0, x1, x2) - 0.5)), 0)
         xmax = min(int(np.ceil(max(x0, x1, x2) - 0.5)), width - 1)
@@ -87,43 +117,53 @@ def _scan(px, py, zv, w, faces, clip, width, height, depth, tri, wts):  # pragma
         iw2 = 1.0 / w[i2]
         for j in range(ymin, ymax + 1):
             sy = j + 0.5
-            for i in range(xmin, xmax + 1):
+            # the row's span from the three edges, widened by a pixel; the exact test decides
+            lo, hi = _span(sign * a0, sign * (b0 * sy + c0), xmin + 0.5, xmax + 0.5)
+            lo, hi = _span(sign * a1, sign * (b1 * sy + c1), lo, hi)
+            lo, hi = _span(sign * a2, sign * (b2 * sy + c2), lo, hi)
+            if lo > hi:
+                continue
+            first = max(xmin, int(lo - 0.5) - 1)
+            last = min(xmax, int(hi - 0.5) + 1)
+            for i in range(first, last + 1):
                 sx = i + 0.5
-                # screen-space barycentrics from edge functions (either winding)
-                l0 = ((x1 - sx) * (y2 - sy) - (x2 - sx) * (y1 - sy)) * inv_area
-                l1 = ((x2 - sx) * (y0 - sy) - (x0 - sx) * (y2 - sy)) * inv_area
-                l2 = 1.0 - l0 - l1
-                if l0 < 0.0 or l1 < 0.0 or l2 < 0.0:
+                e0 = a0 * sx + b0 * sy + c0
+                e1 = a1 * sx + b1 * sy + c1
+                e2 = a2 * sx + b2 * sy + c2
+                if sign * e0 < 0.0 or sign * e1 < 0.0 or sign * e2 < 0.0:
                     continue
-                # perspective-correct weights: interpolate 1/w linearly in screen space
-                q0 = l0 * iw0
-                q1 = l1 * iw1
-                q2 = l2 * iw2
-                s = q0 + q1 + q2
-                b0 = q0 / s
-                b1 = q1 / s
-                b2 = q2 / s
-                z = b0 * zv[i0] + b1 * zv[i1] + b2 * zv[i2]
+                l0 = e0 * inv_area
+                l1 = e1 * inv_area
+                l2 = e2 * inv_area
+                if perspective:  # interpolate 1/w linearly in screen space
+                    q0 = l0 * iw0
+                    q1 = l1 * iw1
+                    q2 = l2 * iw2
+                    s = 1.0 / (q0 + q1 + q2)
+                    l0 = q0 * s
+                    l1 = q1 * s
+                    l2 = q2 * s
+                z = l0 * zv[i0] + l1 * zv[i1] + l2 * zv[i2]
                 if z >= depth[j, i]:
                     continue
                 if n_clip > 0:
                     removed = True
                     for k in range(n_clip):
-                        if b0 * clip[i0, k] + b1 * clip[i1, k] + b2 * clip[i2, k] <= 0.0:
+                        if l0 * clip[i0, k] + l1 * clip[i1, k] + l2 * clip[i2, k] <= 0.0:
                             removed = False
                             break
                     if removed:
                         continue
                 depth[j, i] = z
                 tri[j, i] = t
-                wts[j, i, 0] = b0
-                wts[j, i, 1] = b1
-                wts[j, i, 2] = b2
+                wts[j, i, 0] = l0
+                wts[j, i, 1] = l1
+                wts[j, i, 2] = l2
 
 
 def rasterize(x_px: np.ndarray, y_px: np.ndarray, depth: np.ndarray, faces: np.ndarray,
               width: int, height: int, clip_values: np.ndarray | None = None,
-              divisor: np.ndarray | None = None) -> Fragments:
+              divisor: np.ndarray | None = None, skip: np.ndarray | None = None) -> Fragments:
     """Scan-convert triangles with a z-buffer.
 
     Parameters
@@ -144,6 +184,8 @@ def rasterize(x_px: np.ndarray, y_px: np.ndarray, depth: np.ndarray, faces: np.n
         The projective divisor w of each vertex (distance in front of a perspective
         camera), used to make the weights perspective-correct; triangles with a
         vertex at w <= 0 are skipped.  None (orthographic) means w = 1.
+    skip : ndarray of bool, (F,), optional
+        Triangles not to draw (e.g. back faces of a closed surface: culling).
 
     Returns
     -------
@@ -168,11 +210,13 @@ def rasterize(x_px: np.ndarray, y_px: np.ndarray, depth: np.ndarray, faces: np.n
         clip = np.zeros((len(x_px), 0))
     else:
         clip = np.ascontiguousarray(clip_values, dtype=np.float64).reshape(len(x_px), -1)
-    zbuf = np.full((height, width), np.inf)
+    zbuf = np.full((height, width), np.inf, dtype=np.float32)
     tri = np.full((height, width), -1, dtype=np.int32)
     wts = np.zeros((height, width, 3), dtype=np.float32)
     n = len(x_px)
     w = np.ones(n) if divisor is None else np.ascontiguousarray(divisor, dtype=np.float64)
-    _scan(*(np.ascontiguousarray(a, dtype=np.float64) for a in (x_px, y_px, depth)), w, faces, clip,
-          width, height, zbuf, tri, wts)
+    skip = np.zeros(len(faces), dtype=np.bool_) if skip is None \
+        else np.ascontiguousarray(skip, dtype=np.bool_)
+    _scan(*(np.ascontiguousarray(a, dtype=np.float64) for a in (x_px, y_px, depth)), w, faces, skip, clip,
+          divisor is not None, width, height, zbuf, tri, wts)
     return Fragments(tri, zbuf, wts)
