@@ -129,7 +129,7 @@ def requests_for(spec: OutputSpec, caps: Caps = Caps()) -> list[Request]:
     if spec.kind in ("figure", "layout", "mesh"):
         return [_surface_request(spec, s, caps) for s in states]
     if spec.kind == "section":
-        return [_level_request(spec, states[0])]
+        return [_level_request(spec, states[0])] if spec.options.get("contour", True) else []
     return []
 
 
@@ -468,8 +468,7 @@ def _draw_layout(work: _Work, path: Path):
 def _draw_section(work: _Work, path: Path):
     from dataclasses import replace
 
-    from ..picture.output import figure_metadata
-    from ..picture.section import cross_section, nodal_lines, plane, section_figure
+    from ..picture.section import cross_section, plane, section_figure, section_metadata
 
     o = work.spec.options
     where = plane(o.get("normal") or o.get("plane", "xz"), option(work.spec, "offset_a0"))
@@ -484,38 +483,24 @@ def _draw_section(work: _Work, path: Path):
                           fraction_enclosed=level.fraction_enclosed,
                           fraction_error=level.fraction_error, level_method=level.method)
     nodes = o.get("nodes", True)
-    scale = work.opt("scale")
-    fig = section_figure(section, work.opt("phase_map"), scale, work.opt("decades"), work.opt("units"),
-                         nodes=nodes, title=o.get("title"))
-    md = figure_metadata(
-        section.state, section.fraction_requested, section.level, pixels, command="section",
-        source=o.get("field"), plane=where.name or None, normal=where.normal,
-        offset_a0=where.offset_a0, u_axis=where.u, v_axis=where.v, centre_a0=section.centre_a0,
-        half_width_a0=section.half_width_a0, pixel_a0=section.pixel_a0, exact=section.exact,
-        fraction_enclosed=section.fraction_enclosed, fraction_error=section.fraction_error,
-        level_method=section.level_method, nodal_lines=len(nodal_lines(section)) if nodes else 0,
-        nodal_plane=section.is_nodal_plane, scale=scale,
-        decades=work.opt("decades") if scale == "log" else None, phase_map=work.opt("phase_map"),
-        units=work.opt("units"), dpi=work.opt("dpi"))
+    style = (work.opt("phase_map"), work.opt("scale"), work.opt("decades"), work.opt("units"), nodes)
+    label = state.label if state is not None else Path(o["field"]).stem
+    fig = section_figure(section, *style[:4], nodes=nodes, title=o.get("title"), label=label)
+    md = section_metadata(section, *style, source=o.get("field"), dpi=work.opt("dpi"))
     return _save(work, fig, path, md)
 
 
 @_drawer("radial")
 def _draw_radial(work: _Work, path: Path):
     from ..cli.radial import parse_quantities
-    from ..picture.output import figure_metadata, state_metadata
-    from ..picture.radialplot import radial_figure
+    from ..picture.radialplot import radial_figure, radial_metadata
 
     states = list(work.spec.states)
     quantities = parse_quantities(_quantity_text(work.opt("quantity")))
     fraction = work.opt("fraction")
-    labels = [s.label for s in states]
     fig, marks = radial_figure(states, quantities, fraction, work.opt("units"),
                                title=work.spec.options.get("title"))
-    md = figure_metadata(states[0] if len(states) == 1 else None, fraction, None, None,
-                         command="radial", title=", ".join(labels),
-                         states=[state_metadata(s) for s in states], quantities=quantities,
-                         units=work.opt("units"), dpi=work.opt("dpi"), marks=[m.as_dict() for m in marks])
+    md = radial_metadata(states, marks, quantities, work.opt("units"), dpi=work.opt("dpi"))
     return _save(work, fig, path, md)
 
 

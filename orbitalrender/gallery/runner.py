@@ -132,6 +132,17 @@ def _run_all(tasks: list[tuple[str, tuple]], fn, pool: ProcessPoolExecutor | Non
     return results
 
 
+def _cost(req: Request) -> int:
+    """Rough rank of the work a request needs: several centres need the 3D quadrature for
+    the level (the slowest step), mixed m a 2D one, the rest a 1D one; a user field first."""
+    state = req.state
+    if state is None:
+        return 4
+    if not state.is_single_centre:
+        return 3
+    return 2 if len({t.m for t in state.terms}) > 1 else 1
+
+
 def _describe_request(result, label: str) -> str:
     _, seconds, how = result
     return f"{label} ({how}, {seconds:.1f} s)"
@@ -209,11 +220,13 @@ def run_gallery(config: GalleryConfig | str | os.PathLike, out_dir: str | os.Pat
         for spec in config.outputs:
             for req in requests_for(spec, caps):
                 requests.setdefault(req.key, (f"{req.what} for {spec.name}", req))
+        # the costliest first, so that a long one does not start last and run alone
+        ordered = sorted(requests.values(), key=lambda item: -_cost(item[1]))
         workers = min(jobs, max(len(requests), len(config.outputs)))
         pool = None if workers <= 1 else stack.enter_context(
             ProcessPoolExecutor(max_workers=workers, mp_context=_context(), initializer=_init_worker))
         prep = _Progress(progress, len(requests), "preparing")
-        for result in _run_all([(label, (req, cache)) for label, req in requests.values()],
+        for result in _run_all([(label, (req, cache)) for label, req in ordered],
                                make_request, pool, prep, _describe_request):
             stats.merge(result[0])
 
