@@ -33,7 +33,7 @@ from ..atomic import atomic_path
 from .grid import Lattice
 from .memory import require_bytes
 
-__all__ = ["load_field", "save_field", "VALUE_KEYS"]
+__all__ = ["load_field", "save_field", "check_field_values", "VALUE_KEYS"]
 
 #: Names under which an .npz file may hold the array, in order of preference.
 VALUE_KEYS = ("values", "psi")
@@ -180,6 +180,21 @@ def load_field(path: str | os.PathLike, spacing_a0: float | Sequence[float] | No
         origin = tuple(-0.5 * h * (n - 1) for h, n in zip(spacing, values.shape))
     origin = _vector3(origin, "origin_a0", where)
     values = np.asarray(values, dtype=target)
+    check_field_values(values, where)
+    return Lattice(values, origin, spacing, None)
+
+
+def check_field_values(values: np.ndarray, where: str) -> None:
+    """Raise ValueError if `values` has a NaN or infinity (naming the index of the first)
+    or is zero everywhere; `where` starts the message.
+
+    Examples
+    --------
+    >>> check_field_values(np.array([[[1.0, np.nan]]]), "f.npy")
+    Traceback (most recent call last):
+    ...
+    ValueError: f.npy: psi is NaN or infinite at index (0, 0, 1) (1 such values)
+    """
     finite = np.isfinite(values)
     if not finite.all():
         first = tuple(int(i) for i in np.unravel_index(int(np.argmin(finite)), values.shape))
@@ -188,7 +203,6 @@ def load_field(path: str | os.PathLike, spacing_a0: float | Sequence[float] | No
     del finite
     if not np.any(values):
         raise ValueError(f"{where}: psi is zero everywhere")
-    return Lattice(values, origin, spacing, None)
 
 
 def save_field(path: str | os.PathLike, lattice: Lattice) -> Path:

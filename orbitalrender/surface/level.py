@@ -33,6 +33,7 @@ from scipy.optimize import brentq
 from scipy.special import roots_legendre
 
 from ..lattice.grid import Lattice
+from ..lattice.userfield import check_field_values
 from ..state.hydrogen import radial_function, spherical_harmonic_xyz
 from ..state.model import State
 from ..state.quadrature import space_grid
@@ -320,7 +321,8 @@ def _lattice_level(density: np.ndarray, fraction: float) -> tuple[float, float]:
     flat = density.reshape(-1)
     total = float(np.sum(flat, dtype=np.float64))
     if not total > 0.0 or not math.isfinite(total):
-        raise ValueError("the field is zero (or not finite) everywhere in the lattice")
+        check_field_values(density, "the field")  # names a NaN's index, or says it is all zero
+        raise ValueError("the field has no positive density anywhere in the lattice")
     top = float(flat.max())
     log_lo = math.log(top) - _HIST_DECADES * math.log(10.0)
     step = (math.log(top) - log_lo) / _HIST_BINS
