@@ -225,3 +225,19 @@ def test_box_with_a_lattice_is_refused():
     lat = sample(eigenstate(1, 0, 0), resolution=16)
     with pytest.raises(ValueError, match="box"):
         extract_surface(lat, 0.5, box=Box((0, 0, 0), 3.0))
+
+
+def test_describe_command_reports_the_surface(capsys):
+    import json
+
+    from orbitalrender.cli import main
+
+    assert main(["describe", "3dz2", "--fraction", "0.9", "--resolution", "64", "--json"]) == 0
+    report = json.loads(capsys.readouterr().out)
+    # same expectations as test_3dz2_two_lobes_and_a_ring, through the command line
+    assert report["components"] == 3 and sum(report["euler_characteristics"]) == 4
+    assert sorted(report["genus"]) == [0, 0, 1] and report["closed"] is True
+    assert report["volume_a0_3"] == pytest.approx(sum(report["volumes_a0_3"]))
+    assert report["fraction_enclosed"] == pytest.approx(0.9, abs=1e-9)
+    assert main(["describe", "2pz", "--fraction", "1.5"]) == 2
+    assert main(["describe", "2pz", "--fraction", "0.9", "--box", "2"]) == 2

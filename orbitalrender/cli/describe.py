@@ -19,9 +19,9 @@ from ..lattice.grid import Lattice
 from ..lattice.userfield import load_field
 from ..state.model import State
 from ..state.properties import state_properties
-from .common import add_state_arguments, state_from_args
+from .common import add_lattice_arguments, add_state_arguments, state_from_args
 
-__all__ = ["describe_state", "describe_field", "format_report", "register", "run"]
+__all__ = ["describe_state", "describe_field", "describe_surface", "format_report", "register", "run"]
 
 # Key suffix -> unit shown in the text report, longest first.
 _UNITS = (("_a0_2", "a0^2"), ("_a0_3", "a0^3"), ("_per_a0", "1/a0"), ("_a0", "a0"),
@@ -65,6 +65,38 @@ def describe_field(lattice: Lattice, source: str = "") -> dict:
         "max_abs_psi": float(np.sqrt(np.max(density))),
         "is_real": bool(not np.any(lattice.values.imag)),
     }
+
+
+def describe_surface(source: State | Lattice, fraction: float, resolution: int = 128,
+                     half_width_a0: float | None = None, dtype=np.complex64) -> dict:
+    """Report of the surface enclosing `fraction`: level, enclosed fraction and topology.
+
+    Examples
+    --------
+    >>> from orbitalrender.state.model import real_orbital
+    >>> d = describe_surface(real_orbital(2, 1, 0), 0.9, resolution=32)
+    >>> d["components"], d["genus"], d["closed"]
+    (2, [0, 0], True)
+    """
+    from ..lattice.grid import Box
+    from ..lattice.sampler import default_box
+    from ..surface.extract import extract_surface
+    from ..surface.topology import topology
+
+    if isinstance(source, State):
+        box = None
+        if half_width_a0 is not None:
+            box = Box(default_box(source).centre_a0, half_width_a0)
+        surface = extract_surface(source, fraction, resolution=resolution, box=box, dtype=dtype)
+    else:
+        surface = extract_surface(source, fraction)
+    report = {"fraction_requested": surface.fraction_requested, "level": surface.level,
+              "fraction_enclosed": surface.fraction_enclosed}
+    if surface.fraction_error is not None:
+        report["fraction_error"] = surface.fraction_error
+    report["lattice_shape"] = list(surface.lattice_shape)
+    report.update(topology(surface).as_dict())
+    return report
 
 
 def _label(key: str) -> str:
@@ -133,6 +165,10 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     p.add_argument("--origin-a0", type=float, nargs=3, default=None, metavar=("X", "Y", "Z"),
                    help="coordinates of the first grid point of an .npy field (default: centred)")
     p.add_argument("--json", action="store_true", help="print one JSON object instead of text")
+    p.add_argument("--fraction", type=float, default=None, metavar="F",
+                   help="also extract the surface enclosing probability F (0 < F < 1) and report "
+                        "its level, parts, Euler characteristics, genus, volumes and area")
+    add_lattice_arguments(p, default_resolution=128)
     p.set_defaults(run=run)
 
 
@@ -141,8 +177,16 @@ def run(args: argparse.Namespace) -> int:
     if (args.field is None) == (args.state is None):
         raise UserInputError("give either a STATE or --field FILE")
     if args.field is not None:
-        report = describe_field(load_field(args.field, args.spacing_a0, args.origin_a0), args.field)
+        lattice = load_field(args.field, args.spacing_a0, args.origin_a0)
+        report = describe_field(lattice, args.field)
+        source = lattice
     else:
-        report = describe_state(state_from_args(args))
+        source = state_from_args(args)
+        report = describe_state(source)
+    if args.fraction is not None:
+        if args.field is not None and (args.box is not None or args.resolution != 128):
+            raise UserInputError("--box and --resolution apply to a STATE; a field has its own grid")
+        dtype = np.complex128 if args.precision == "double" else np.complex64
+        report.update(describe_surface(source, args.fraction, args.resolution, args.box, dtype))
     print(json.dumps(_finite_json(report)) if args.json else format_report(report))
     return 0

@@ -17,9 +17,10 @@ therefore run on a *signed* field wherever the state allows one:
   lattice spacing.)
 * anything else: |psi|, whose zeros are generically lines, not surfaces.
 
-The test that decides "real up to a phase" is made on the lattice itself: the
-imaginary part left after the rotation must stay below 1e-3 of sqrt(t) everywhere,
-so that the superlevel sets of f and of |psi| differ by less than that.
+For an analytic state the route follows from its terms (``State.is_real``, one centre
+and one m with coefficients of one phase).  For a user field the test is made on the
+lattice: the imaginary part left after the rotation must stay below 1e-3 of sqrt(t)
+everywhere, so that the superlevel sets of f and of |psi| differ by less than that.
 """
 
 from __future__ import annotations
@@ -50,51 +51,71 @@ _GRADIENT_STEP = 1e-4
 _MAX_STEP = 0.5
 
 
-def _signed_field(lattice: Lattice, amplitude: float) -> tuple[np.ndarray, bool]:
-    """float32 field for marching cubes and whether it is signed (see the module notes)."""
-    v = lattice.values
-    k = int(np.argmax(lattice.density()))
-    peak = v.reshape(-1)[k]
-    limit = _REAL_TOLERANCE * amplitude
-    rotate = np.exp(-1j * np.angle(peak))
-    f = np.empty(v.shape, dtype=np.float32)
-    np.multiply(v.real, np.float32(rotate.real), out=f)
-    f -= v.imag * np.float32(rotate.imag)
-    imag_max = float(np.max(np.abs(v.imag * np.float32(rotate.real) + v.real * np.float32(rotate.imag))))
-    if imag_max <= limit:
-        return f, True
-    state = lattice.state
-    if state is not None and state.is_single_centre and len({t.m for t in state.terms}) == 1:
-        m = state.terms[0].m
-        if m != 0 and _remove_azimuthal(lattice, m, k, f, limit):
-            _open_axis(lattice, f, amplitude)
-            return f, True
-    np.abs(v, out=f, casting="same_kind")
-    return f, False
+def _peak_phase(values: np.ndarray) -> float:
+    """arg psi where |psi| is largest on a coarse subset of the lattice (about 32^3 points)."""
+    step = max(1, min(values.shape) // 32)
+    sub = values[::step, ::step, ::step]
+    return float(np.angle(sub.reshape(-1)[int(np.argmax(np.abs(sub)))]))
 
 
-def _remove_azimuthal(lattice: Lattice, m: int, peak_index: int, out: np.ndarray,
-                      limit: float) -> bool:
-    """out = Re(psi e^{-i (alpha + m phi)}), slab by slab; False if psi is not of that form."""
-    v = lattice.values
+def _common_phase(state: State) -> float | None:
+    """beta with every coefficient (times its time factor) real after e^{-i beta}, else None."""
+    c = np.array([t.coefficient for t in state.terms]) * state.phase_factors()
+    beta = float(np.angle(c[int(np.argmax(np.abs(c)))]))
+    rotated = c * np.exp(-1j * beta)
+    return beta if np.all(np.abs(rotated.imag) <= 1e-12 * np.max(np.abs(c))) else None
+
+
+def _azimuthal_unwinder(lattice: Lattice, m: int):
+    """e^{-i m phi} about the state's centre on slab i of the lattice (1 on the axis)."""
     centre = lattice.state.centres_a0[0]
     xs, ys, _ = lattice.axes()
     dy = (ys - centre[1])[:, None]
 
-    def unwind(i: int) -> np.ndarray:  # e^{-i m phi} on slab i, 1 on the axis
+    def unwind(i: int) -> np.ndarray:
         w = (xs[i] - centre[0]) - 1j * dy
         mag = np.abs(w)
-        w = np.where(mag > 0, w / np.where(mag > 0, mag, 1.0), 1.0)
-        return w**m
+        return np.where(mag > 0, w / np.where(mag > 0, mag, 1.0), 1.0) ** m
 
-    i0, j0, k0 = np.unravel_index(peak_index, v.shape)
-    rotate = np.exp(-1j * np.angle(v[i0, j0, k0] * unwind(i0)[j0, 0]))
-    for i in range(v.shape[0]):
-        slab = v[i] * (unwind(i) * rotate).astype(np.complex64)
-        if float(np.max(np.abs(slab.imag))) > limit:
+    return unwind
+
+
+def _rotate_into(values: np.ndarray, factor, out: np.ndarray, limit: float | None) -> bool:
+    """out = Re(values * factor(i)) slab by slab; False as soon as |Im| exceeds `limit`."""
+    for i in range(values.shape[0]):
+        slab = values[i] * np.asarray(factor(i), dtype=np.complex64)
+        if limit is not None and float(np.max(np.abs(slab.imag))) > limit:
             return False
         out[i] = slab.real
     return True
+
+
+def _signed_field(lattice: Lattice, amplitude: float) -> tuple[np.ndarray, bool]:
+    """float32 field for marching cubes and whether it is signed (see the module notes).
+
+    For an analytic state the form of psi is known from its terms; a user field is
+    tested point by point.
+    """
+    v = lattice.values
+    f = np.empty(v.shape, dtype=np.float32)
+    state = lattice.state
+    if state is None:
+        rotate = np.exp(-1j * _peak_phase(v))
+        if _rotate_into(v, lambda i: rotate, f, _REAL_TOLERANCE * amplitude):
+            return f, True
+    elif state.is_real:
+        rotate = np.exp(-1j * _peak_phase(v))
+        _rotate_into(v, lambda i: rotate, f, None)
+        return f, True
+    elif state.is_single_centre and len({t.m for t in state.terms}) == 1 and state.terms[0].m != 0:
+        beta = _common_phase(state)
+        if beta is not None:
+            unwind, rotate = _azimuthal_unwinder(lattice, state.terms[0].m), np.exp(-1j * beta)
+            _rotate_into(v, lambda i: unwind(i) * rotate, f, None)
+            _open_axis(lattice, f, amplitude)
+            return f, True
+    np.abs(v, out=f, casting="same_kind")
+    return f, False
 
 
 def _open_axis(lattice: Lattice, field: np.ndarray, amplitude: float) -> None:
@@ -264,8 +285,9 @@ def surface_at_level(lattice: Lattice, level: LevelResult) -> Surface:
     faces = np.concatenate([p[1] + o for p, o in zip(parts, offsets)])
     lattice_normals = np.concatenate([p[2] for p in parts])
     norm = np.linalg.norm(lattice_normals, axis=1, keepdims=True)
-    lattice_normals = np.where(norm > 0, lattice_normals / np.where(norm > 0, norm, 1.0),
-                               vertex_normals(verts, faces))
+    lattice_normals = lattice_normals / np.where(norm > 0, norm, 1.0)
+    if not np.all(norm > 0):  # a flat spot of the lattice field: take the mesh normal there
+        lattice_normals = np.where(norm > 0, lattice_normals, vertex_normals(verts, faces))
     if lattice.state is not None:
         verts, psi, normals = _exact_vertices(lattice.state, verts, level.level,
                                               min(lattice.spacing_a0), lattice_normals)
