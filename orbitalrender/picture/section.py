@@ -34,6 +34,7 @@ from scipy.ndimage import map_coordinates
 from skimage.measure import find_contours
 
 from ..lattice.grid import Lattice
+from ..lattice.memory import require_bytes
 from ..lattice.sampler import default_box
 from ..state.model import State
 from ..state.units import a0_to
@@ -64,6 +65,12 @@ DENSITY_SCALES = ("linear", "log")
 #: Pixels per side accepted: below 16 no line can be resolved, above 4096 one section
 #: holds more than 16 million exact psi evaluations (tens of seconds).
 MIN_PIXELS, MAX_PIXELS = 16, 4096
+#: Points of psi evaluated at once (temporary arrays of psi_nlm_xyz stay near 100 MB).
+_CHUNK_POINTS = 1 << 20
+#: Peak memory of a section and its picture per pixel: psi, density and weight, and the
+#: float64 RGB arrays of the colour lookup and shading (tracemalloc peak about 200 B at
+#: 1024 x 1024 px, drawing included; 320 leaves a margin).
+_BYTES_PER_PIXEL = 320
 #: psi counts as real on the plane (after one global phase) when its imaginary part is
 #: below this fraction of max |psi| everywhere: far above float64 round-off of psi and
 #: above the float32 round-off of a complex64 lattice (6e-8), far below any true phase.
@@ -396,13 +403,14 @@ def cross_section(source: State | Lattice, plane_: Plane, half_width_a0: float |
     centre = plane_.foot_a0(middle)
     step = 2.0 * half_width_a0 / pixels
     coords = -half_width_a0 + step * (np.arange(pixels) + 0.5)
-    x, y, z = plane_.point(coords[None, :], coords[:, None], centre)
-    if state is not None:
-        psi = state.psi(x, y, z)
-    else:
-        psi = _interpolate(source, x, y, z)
-        if not np.isfinite(psi).any():
-            raise ValueError("the section window does not overlap the lattice")
+    require_bytes(pixels * pixels * _BYTES_PER_PIXEL, f"a section of {pixels} x {pixels} pixels")
+    psi = np.empty((pixels, pixels), dtype=complex)
+    rows = max(1, _CHUNK_POINTS // pixels)
+    for start in range(0, pixels, rows):  # in blocks of rows: bounded temporary memory
+        x, y, z = plane_.point(coords[None, :], coords[start:start + rows, None], centre)
+        psi[start:start + rows] = state.psi(x, y, z) if state is not None else _interpolate(source, x, y, z)
+    if state is None and not np.isfinite(psi).any():
+        raise ValueError("the section window does not overlap the lattice")
     extra = {}
     if fraction is not None:
         result = level_for_fraction(source, fraction)
