@@ -327,3 +327,33 @@ def test_subprocess_internal_fault_with_debug_is_status_1_and_shows_the_tracebac
     assert debug.returncode == 1
     assert "internal error: RuntimeError: simulated internal fault" in debug.stderr
     assert "Traceback" in debug.stderr and "boom" in debug.stderr
+
+
+def _traced_peak(fn):
+    import tracemalloc
+
+    tracemalloc.start()
+    try:
+        result = fn()
+        return result, tracemalloc.get_traced_memory()[1]
+    finally:
+        tracemalloc.stop()
+
+
+@pytest.mark.parametrize("argv, fragment", [
+    (["figure", "4,3,1", "--resolution", "400", "--out", "f.png"], "400^3 lattice with its surface"),
+    (["figure", "2pz", "--resolution", "24", "--size", "8192x8192", "--supersample", "4", "--out", "f.png"],
+     "8192 x 8192 px render"),
+    (["figure", "--shell", "3", "--resolution", "400", "--out", "f.png"], "400^3 lattice with its surface"),
+    (["mesh", "4,3,1", "--fraction", "0.9", "--resolution", "400", "--out", "m.glb"],
+     "400^3 lattice with its surface"),
+])
+def test_commands_refuse_a_request_too_big_before_allocating_it(argv, fragment, tmp_path, capsys,
+                                                                 monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    run_cli(["describe", "1s"], capsys)  # build the parser once, outside the traced call
+    monkeypatch.setattr(memory, "available_bytes", lambda: 320 * 2**20)  # 256 MiB usable
+    (status, _, err), peak = _traced_peak(lambda: run_cli(argv, capsys))
+    assert_one_line_error(status, err, fragment, "GiB", "fits")
+    assert peak < 16 * 2**20, peak  # the refused request is 0.7 GiB or more
+    assert list(tmp_path.iterdir()) == []
