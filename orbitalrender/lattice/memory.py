@@ -10,9 +10,11 @@ __all__ = ["MemoryLimitError", "available_bytes", "sampling_bytes", "largest_res
            "require_lattice_memory", "require_bytes", "surface_bytes_per_point", "surface_bytes",
            "render_bytes", "require_surface_memory", "require_render_memory"]
 
-# Bytes per lattice point that the sampler needs on top of the output array:
-# the octant (1/8 of the output) plus the chunk temporaries, which are bounded
-# by the chunk size, not by N (see sampler._CHUNK_POINTS).
+# Bytes per lattice point that the sampler may need on top of the output array: a
+# margin of 1/8 of the output plus the chunk temporaries of the slab-by-slab path,
+# which are bounded by the chunk size, not by N (see sampler._CHUNK_POINTS).  The
+# symmetric path needs neither (benchmarks/bench_sampling.py measures 1.03x the
+# output at N = 256), so the estimate errs on the safe side.
 _OCTANT_FRACTION = 0.125
 _SAFETY = 0.8  # use at most 80 % of what the operating system says is free (common practice)
 # Work of the surface step per lattice point, beyond the lattice: the float32 field that
