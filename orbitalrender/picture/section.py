@@ -309,8 +309,8 @@ class Section:
         return out
 
 
-def _box_reach(plane_: Plane, centre_a0: Sequence[float], half_widths_a0: Sequence[float]) -> float:
-    """How far (a0) the box of `half_widths_a0` around `centre_a0` reaches along the normal."""
+def _box_reach(plane_: Plane, half_widths_a0: Sequence[float]) -> float:
+    """How far (a0) an axis-aligned box of these half-widths reaches from its middle along the normal."""
     return float(np.dot(np.abs(plane_.normal), half_widths_a0))
 
 
@@ -393,7 +393,7 @@ def cross_section(source: State | Lattice, plane_: Plane, half_width_a0: float |
         what = "the lattice"
         window = max(half_widths)
     distance = plane_.distance_a0(middle)
-    if abs(distance) > _box_reach(plane_, middle, half_widths) * (1 + 1e-12):
+    if abs(distance) > _box_reach(plane_, half_widths) * (1 + 1e-12):
         raise ValueError(f"the plane ({plane_.describe(tex=False)}) misses {what}: it lies "
                          f"{abs(distance):.4g} a0 from its middle")
     if half_width_a0 is None:
