@@ -31,7 +31,7 @@ from dataclasses import dataclass
 import numba
 import numpy as np
 
-__all__ = ["Fragments", "rasterize"]
+__all__ = ["Fragments", "rasterize", "scan_triangle"]
 
 
 @dataclass(frozen=True, eq=False)
@@ -74,91 +74,99 @@ def _span(a, c, lo, hi):  # pragma: no cover - compiled
 @numba.njit(cache=True, nogil=True)
 def _scan(px, py, zv, w, faces, skip, clip, perspective, width, height,
           depth, tri, wts):  # pragma: no cover - compiled
-    n_clip = clip.shape[1]
     for t in range(faces.shape[0]):
-        if skip[t]:
+        if not skip[t]:
+            scan_triangle(t, px, py, zv, w, faces, clip, perspective, width, 0, height, depth, tri, wts)
+
+
+@numba.njit(cache=True, nogil=True)
+def scan_triangle(t, px, py, zv, w, faces, clip, perspective, width, row0, row1,
+                  depth, tri, wts):  # pragma: no cover - compiled
+    """Draw triangle t into buffers that hold image rows row0 .. row1 - 1 (buffer row j - row0):
+    the whole image, or one band of it (see render3d's banded pass)."""
+    n_clip = clip.shape[1]
+    i0 = faces[t, 0]
+    i1 = faces[t, 1]
+    i2 = faces[t, 2]
+    x0 = px[i0]
+    y0 = py[i0]
+    x1 = px[i1]
+    y1 = py[i1]
+    x2 = px[i2]
+    y2 = py[i2]
+    if not (w[i0] > 0.0 and w[i1] > 0.0 and w[i2] > 0.0):
+        return
+    # edge functions E_k(x, y) = A_k x + B_k y + C_k, E_k = 0 on the edge opposite vertex k;
+    # a shared edge gets exactly opposite coefficients in its two triangles, so no pixel
+    # centre on it is lost to rounding
+    a0 = y1 - y2
+    b0 = x2 - x1
+    c0 = x1 * y2 - x2 * y1
+    a1 = y2 - y0
+    b1 = x0 - x2
+    c1 = x2 * y0 - x0 * y2
+    a2 = y0 - y1
+    b2 = x1 - x0
+    c2 = x0 * y1 - x1 * y0
+    area = c0 + c1 + c2
+    if area == 0.0:
+        return
+    sign = 1.0 if area > 0.0 else -1.0
+    inv_area = 1.0 / area
+    xmin = max(int(np.floor(min(x0, x1, x2) - 0.5)), 0)
+    xmax = min(int(np.ceil(max(x0, x1, x2) - 0.5)), width - 1)
+    ymin = max(int(np.floor(min(y0, y1, y2) - 0.5)), row0)
+    ymax = min(int(np.ceil(max(y0, y1, y2) - 0.5)), row1 - 1)
+    if xmin > xmax or ymin > ymax:
+        return
+    iw0 = 1.0 / w[i0]
+    iw1 = 1.0 / w[i1]
+    iw2 = 1.0 / w[i2]
+    for j in range(ymin, ymax + 1):
+        sy = j + 0.5
+        # the row's span from the three edges, widened by a pixel; the exact test decides
+        lo, hi = _span(sign * a0, sign * (b0 * sy + c0), xmin + 0.5, xmax + 0.5)
+        lo, hi = _span(sign * a1, sign * (b1 * sy + c1), lo, hi)
+        lo, hi = _span(sign * a2, sign * (b2 * sy + c2), lo, hi)
+        if lo > hi:
             continue
-        i0 = faces[t, 0]
-        i1 = faces[t, 1]
-        i2 = faces[t, 2]
-        x0 = px[i0]
-        y0 = py[i0]
-        x1 = px[i1]
-        y1 = py[i1]
-        x2 = px[i2]
-        y2 = py[i2]
-        if not (w[i0] > 0.0 and w[i1] > 0.0 and w[i2] > 0.0):
-            continue
-        # edge functions E_k(x, y) = A_k x + B_k y + C_k, E_k = 0 on the edge opposite vertex k;
-        # a shared edge gets exactly opposite coefficients in its two triangles, so no pixel
-        # centre on it is lost to rounding
-        a0 = y1 - y2
-        b0 = x2 - x1
-        c0 = x1 * y2 - x2 * y1
-        a1 = y2 - y0
-        b1 = x0 - x2
-        c1 = x2 * y0 - x0 * y2
-        a2 = y0 - y1
-        b2 = x1 - x0
-        c2 = x0 * y1 - x1 * y0
-        area = c0 + c1 + c2
-        if area == 0.0:
-            continue
-        sign = 1.0 if area > 0.0 else -1.0
-        inv_area = 1.0 / area
-        xmin = max(int(np.floor(min(x0, x1, x2) - 0.5)), 0)
-        xmax = min(int(np.ceil(max(x0, x1, x2) - 0.5)), width - 1)
-        ymin = max(int(np.floor(min(y0, y1, y2) - 0.5)), 0)
-        ymax = min(int(np.ceil(max(y0, y1, y2) - 0.5)), height - 1)
-        if xmin > xmax or ymin > ymax:
-            continue
-        iw0 = 1.0 / w[i0]
-        iw1 = 1.0 / w[i1]
-        iw2 = 1.0 / w[i2]
-        for j in range(ymin, ymax + 1):
-            sy = j + 0.5
-            # the row's span from the three edges, widened by a pixel; the exact test decides
-            lo, hi = _span(sign * a0, sign * (b0 * sy + c0), xmin + 0.5, xmax + 0.5)
-            lo, hi = _span(sign * a1, sign * (b1 * sy + c1), lo, hi)
-            lo, hi = _span(sign * a2, sign * (b2 * sy + c2), lo, hi)
-            if lo > hi:
+        first = max(xmin, int(lo - 0.5) - 1)
+        last = min(xmax, int(hi - 0.5) + 1)
+        for i in range(first, last + 1):
+            sx = i + 0.5
+            e0 = a0 * sx + b0 * sy + c0
+            e1 = a1 * sx + b1 * sy + c1
+            e2 = a2 * sx + b2 * sy + c2
+            if sign * e0 < 0.0 or sign * e1 < 0.0 or sign * e2 < 0.0:
                 continue
-            first = max(xmin, int(lo - 0.5) - 1)
-            last = min(xmax, int(hi - 0.5) + 1)
-            for i in range(first, last + 1):
-                sx = i + 0.5
-                e0 = a0 * sx + b0 * sy + c0
-                e1 = a1 * sx + b1 * sy + c1
-                e2 = a2 * sx + b2 * sy + c2
-                if sign * e0 < 0.0 or sign * e1 < 0.0 or sign * e2 < 0.0:
+            l0 = e0 * inv_area
+            l1 = e1 * inv_area
+            l2 = e2 * inv_area
+            if perspective:  # interpolate 1/w linearly in screen space
+                q0 = l0 * iw0
+                q1 = l1 * iw1
+                q2 = l2 * iw2
+                s = 1.0 / (q0 + q1 + q2)
+                l0 = q0 * s
+                l1 = q1 * s
+                l2 = q2 * s
+            z = l0 * zv[i0] + l1 * zv[i1] + l2 * zv[i2]
+            jb = j - row0
+            if z >= depth[jb, i]:
+                continue
+            if n_clip > 0:
+                removed = True
+                for k in range(n_clip):
+                    if l0 * clip[i0, k] + l1 * clip[i1, k] + l2 * clip[i2, k] <= 0.0:
+                        removed = False
+                        break
+                if removed:
                     continue
-                l0 = e0 * inv_area
-                l1 = e1 * inv_area
-                l2 = e2 * inv_area
-                if perspective:  # interpolate 1/w linearly in screen space
-                    q0 = l0 * iw0
-                    q1 = l1 * iw1
-                    q2 = l2 * iw2
-                    s = 1.0 / (q0 + q1 + q2)
-                    l0 = q0 * s
-                    l1 = q1 * s
-                    l2 = q2 * s
-                z = l0 * zv[i0] + l1 * zv[i1] + l2 * zv[i2]
-                if z >= depth[j, i]:
-                    continue
-                if n_clip > 0:
-                    removed = True
-                    for k in range(n_clip):
-                        if l0 * clip[i0, k] + l1 * clip[i1, k] + l2 * clip[i2, k] <= 0.0:
-                            removed = False
-                            break
-                    if removed:
-                        continue
-                depth[j, i] = z
-                tri[j, i] = t
-                wts[j, i, 0] = l0
-                wts[j, i, 1] = l1
-                wts[j, i, 2] = l2
+            depth[jb, i] = z
+            tri[jb, i] = t
+            wts[jb, i, 0] = l0
+            wts[jb, i, 1] = l1
+            wts[jb, i, 2] = l2
 
 
 def rasterize(x_px: np.ndarray, y_px: np.ndarray, depth: np.ndarray, faces: np.ndarray,
