@@ -140,12 +140,13 @@ def _open_axis(lattice: Lattice, field: np.ndarray, amplitude: float) -> None:
 
 
 def _crop(mask_of: np.ndarray, amplitude: float) -> tuple[slice, ...] | None:
-    """Index box around {field > amplitude} with one point of margin, or None if empty.
-
-    Strictly above: points exactly at the level (the level of a user field is one of its
-    own values) bound no volume, and marching cubes finds no surface through them alone.
+    """Index box around {field >= amplitude} with one point of margin, or None if no point
+    lies strictly above: points exactly at the level (the level of a user field is one of
+    its own values) bound no volume, and marching cubes finds no surface through them alone.
     """
-    above = mask_of > amplitude
+    if not float(mask_of.max()) > amplitude:
+        return None
+    above = mask_of >= amplitude
     box = []
     for axis in range(3):
         other = tuple(a for a in range(3) if a != axis)
