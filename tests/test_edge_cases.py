@@ -231,3 +231,21 @@ def test_render_refuses_before_its_buffers(monkeypatch):
     peak, message = _peak_while(lambda: render_surfaces(s, 8192, 8192, supersample=4))
     assert peak < 4 * MIB
     assert "8192 x 8192 px" in message and "fits" in message
+
+
+def test_a_field_whose_level_equals_many_of_its_values_gives_a_closed_surface():
+    # 1s + i 2s at Z = 2 on a 40^3 lattice: the F = 0.375 level of the field is a value
+    # that 24 lattice points share (found by the property tests)
+    state = superpose([(0.7474093186836598, eigenstate(1, 0, 0, Z=2.0)),
+                       (0.6643638388299198j, eigenstate(2, 0, 0, Z=2.0))])
+    lattice = sample(state, 40)
+    field = Lattice(lattice.values, lattice.origin_a0, lattice.spacing_a0, None)
+    assert watertight(extract_surface(field, 0.375))
+
+
+def test_a_field_whose_level_is_its_maximum_is_refused_as_empty():
+    # F so small that the level is the top value itself: a set of zero volume
+    lattice = sample(eigenstate(1, 0, 0), 40)
+    field = Lattice(lattice.values, lattice.origin_a0, lattice.spacing_a0, None)
+    with pytest.raises(ValueError, match="empty at this resolution"):
+        extract_surface(field, 0.0625)

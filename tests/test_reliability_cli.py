@@ -357,3 +357,22 @@ def test_commands_refuse_a_request_too_big_before_allocating_it(argv, fragment, 
     assert_one_line_error(status, err, fragment, "GiB", "fits")
     assert peak < 16 * 2**20, peak  # the refused request is 0.7 GiB or more
     assert list(tmp_path.iterdir()) == []
+
+
+@pytest.mark.parametrize("command, state, extra, fragment", [
+    ("describe", None, [], "give either a STATE or --field FILE"),
+    ("figure", None, ["--shell", "0"], "shell n must be 1 to 7, got 0"),
+    ("figure", None, ["--shell", "60"], "shell n must be 1 to 7, got 60"),
+    ("figure", None, [], "--shell"),
+    ("figure", "2pz", ["--shell", "2"], "not both"),
+    ("mesh", "2,1,1", ["--split", "sign"], "--split sign needs a real state"),
+    ("radial", "1s@(0,0,1) + 1s", [], "one (n, l) shell on one centre"),
+    ("section", None, [], "give either a STATE or --field FILE"),
+])
+def test_bad_combination_is_one_line_and_status_2(command, state, extra, fragment, tmp_path, capsys,
+                                                  monkeypatch):
+    if command not in COMMANDS:
+        pytest.skip(f"no {command} command")
+    monkeypatch.chdir(tmp_path)
+    status, _, err = run_cli(_with_state(command, tmp_path, state, extra), capsys)
+    assert_one_line_error(status, err, fragment)
