@@ -22,7 +22,8 @@ done per pixel on those buffers:
 * **Translucent outer shells**: components that lie wholly outside another
   component (farther from the centre than all of it) can be drawn with an
   opacity; each such component is its own layer (its nearest fragment) and the
-  layers are composited by depth over the opaque ones.
+  layers are composited by depth over the opaque ones.  A shell is shown by its
+  outer wall; its inner (cavity) wall, with negative enclosed volume, is left out.
 * **Nodal axis**: a dashed line along z through the centre, depth-tested
   against the surfaces (hidden where a lobe or ring passes in front of it).
 
@@ -929,13 +930,17 @@ def render_surfaces(surfaces: Surface | Sequence[Surface], width_px: int = 800, 
 
     opaque, translucent = surfaces, []
     if translucent_outer is not None and translucent_outer < 1.0:
-        from ..surface.topology import split_components
+        from ..surface.topology import split_components, topology
 
-        components = [c for s in surfaces for c in split_components(s)]
-        centre = np.array(camera.target_a0)
-        outer = _outer_components(components, centre)
+        components, cavity = [], []
+        for s in surfaces:
+            components.extend(split_components(s))
+            cavity.extend(v < 0 for v in topology(s).volumes_a0_3)  # inner wall of a shell
+        outer = _outer_components(components, np.array(camera.target_a0))
         opaque = [c for c, o in zip(components, outer) if not o]
-        translucent = [c for c, o in zip(components, outer) if o]
+        # a see-through shell is drawn by its outer wall; its inner wall, behind that wall,
+        # would only double the shell's opacity and mix its colour with what lies inside
+        translucent = [c for c, o, v in zip(components, outer, cavity) if o and not v]
 
     def raster(group: list[Surface]) -> tuple[_Mesh, Fragments]:
         mesh = _mesh(group, rotation, proj)
