@@ -94,7 +94,7 @@ def _message(tmp_path: Path, text: str) -> str:
     # missing pieces
     ('kind = "figure"\nstate = "1s"', "outputs[1]: key 'name' is missing"),
     ('name = "x"\nkind = "figure"', "output 'x' (outputs[1]): give 'state' or 'field'"),
-    ('name = "x"\nkind = "layout"\nstate = "1s"', "a layout needs either 'states'"),
+    ('name = "x"\nkind = "layout"\nstate = "1s"', "a layout needs one of 'states'"),
     # files
     ('name = "x"\nkind = "figure"\nstate = "1s"\nfile = "../x.png"',
      "key 'file' must be a relative file name"),
@@ -147,6 +147,11 @@ def test_every_schema_key_applies_to_known_kinds_and_has_a_description():
     for key in SCHEMA.values():
         assert key.kinds and set(key.kinds) <= set(KINDS), key.name
         assert key.expected, key.name
+
+
+def test_layout_of_a_shell():
+    cfg = parse_config({"outputs": [{"name": "n2", "kind": "layout", "shell": 2, "basis": "complex"}]})
+    assert [s.label for s in cfg.outputs[0].states] == ["2,0,0", "2,1,-1", "2,1,0", "2,1,1"]
 
 
 def test_parse_config_accepts_a_dict():

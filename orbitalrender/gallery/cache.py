@@ -219,10 +219,11 @@ def level_key(source: State | dict, fraction: float) -> str:
 
 
 def surface_key(source: State | dict, fraction: float, resolution: int, box: Box | None,
-                dtype) -> str:
+                dtype, level_rule: str = "quadrature") -> str:
     """Cache key of a surface.  For a state it holds the lattice's parts with the box resolved;
-    for a user field (`source` a dict describing the file) the file fixes the lattice."""
-    parts = {**_source_parts(source), "fraction": float(fraction)}
+    for a user field (`source` a dict describing the file) the file fixes the lattice.
+    `level_rule` says how the level was found (``"quadrature"``, or ``"lattice"`` in drafts)."""
+    parts = {**_source_parts(source), "fraction": float(fraction), "level_rule": level_rule}
     if isinstance(source, State):
         box = box if box is not None else default_box(source)
         parts.update(_lattice_parts(source, resolution, box, dtype))
@@ -254,13 +255,14 @@ _SURFACE_SCALARS = ("level", "fraction_requested", "fraction_enclosed", "fractio
 
 
 def cached_surface(cache: DiskCache, stats: CacheStats, source: State | dict, fraction: float,
-                   resolution: int, box: Box | None, dtype, compute: Callable[[], Surface]) -> Surface:
+                   resolution: int, box: Box | None, dtype, compute: Callable[[], Surface],
+                   level_rule: str = "quadrature") -> Surface:
     """A Surface through the cache; `compute` makes it on a miss.
 
     For a state the key holds the resolved box; for a user field (`source` a dict
     describing the file) resolution and box are those of the file and not part of it.
     """
-    key = surface_key(source, fraction, resolution, box, dtype)
+    key = surface_key(source, fraction, resolution, box, dtype, level_rule)
     state = source if isinstance(source, State) else None
 
     def load(path: Path) -> Surface:

@@ -30,6 +30,7 @@ from ..cli.radial import parse_quantities
 from ..errors import UserInputError
 from ..mesh.printable import BASES
 from ..picture.colormap import PHASE_SCHEMES
+from ..picture.layout import shell_states
 from ..picture.output import DPI_RANGE, check_dpi
 from ..picture.render3d import PROJECTIONS, Camera, parse_cutaway
 from ..picture.section import DENSITY_SCALES, MAX_PIXELS, MIN_PIXELS, PLANE_NAMES, plane
@@ -291,6 +292,8 @@ SCHEMA: dict[str, Key] = {k.name: k for k in [
     _K("legend", ("figure", "layout"), _boolean, "true or false"),
     _K("panel_px", ("layout",), _number(64, 4096, integer=True), _range_text("integer", 64, 4096)),
     _K("title", ("figure", "section", "radial"), _text, "a string"),
+    _K("shell", ("layout",), _number(1, 6, integer=True), _range_text("integer", 1, 6)),
+    _K("basis", ("layout",), _choice(("real", "complex")), _choice_text(("real", "complex"))),
     _K("columns", ("layout",), _number(1, 64, integer=True), _range_text("integer", 1, 64)),
     # sections
     _K("plane", ("section",), _choice(PLANE_NAMES), _choice_text(PLANE_NAMES)),
@@ -414,9 +417,12 @@ def _parse_states(opts: dict, kind: str, path: Path, table: str) -> tuple[State,
 
     t0 = opts.get("time", 0.0)
     if kind == "layout":
-        if ("times" in opts) == ("states" in opts):
-            raise ConfigError(f"{_where(path, table, None)}: a layout needs either 'states' "
-                              "(small multiples) or 'state' with 'times' (a time strip)")
+        if sum(k in opts for k in ("times", "states", "shell")) != 1:
+            raise ConfigError(f"{_where(path, table, None)}: a layout needs one of 'states' "
+                              "(small multiples), 'shell' (every state of a shell) or 'state' with "
+                              "'times' (a time strip)")
+        if "shell" in opts:
+            return tuple(shell_states(opts["shell"], opts.get("basis", "real"), z, mu))
         if "times" in opts:
             if "state" not in opts:
                 raise ConfigError(f"{_where(path, table, 'state')} is needed with 'times'")

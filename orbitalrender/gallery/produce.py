@@ -73,6 +73,7 @@ class Request:
     box: Box | None = None
     precision: str = "single"
     field: tuple | None = None  # (path, spacing_a0, origin_a0, sha256) of a user field
+    level_rule: str = "quadrature"  # "lattice" in drafts: the level from the lattice's own sum
 
 
 def _box(spec: OutputSpec, state: State | None) -> Box | None:
@@ -111,8 +112,9 @@ def _surface_request(spec: OutputSpec, state: State | None, caps: Caps) -> Reque
         desc = _field_description(spec)
         key = surface_key(_field_parts(desc), fraction, resolution, box, _DTYPES[precision])
         return Request("surface", key, None, fraction, resolution, box, precision, desc)
-    key = surface_key(state, fraction, resolution, box, _DTYPES[precision])
-    return Request("surface", key, state, fraction, resolution, box, precision)
+    rule = "lattice" if caps.resolution else "quadrature"
+    key = surface_key(state, fraction, resolution, box, _DTYPES[precision], rule)
+    return Request("surface", key, state, fraction, resolution, box, precision, level_rule=rule)
 
 
 def _level_request(spec: OutputSpec, state: State | None) -> Request:
@@ -164,9 +166,22 @@ def _surface(req: Request, cache: DiskCache, stats: CacheStats) -> Surface:
 
     def compute() -> Surface:
         lattice = cached_lattice(cache, stats, req.state, req.resolution, req.box, dtype)
+        if req.level_rule == "lattice":
+            return surface_at_level(lattice, _draft_level(lattice, req.fraction, stats))
         return surface_at_level(lattice, _level(req, cache, stats))
     return cached_surface(cache, stats, req.state, req.fraction, req.resolution, req.box, dtype,
-                          compute)
+                          compute, req.level_rule)
+
+
+def _draft_level(lattice: Lattice, fraction: float, stats: CacheStats) -> LevelResult:
+    """The level from the sum over the (draft) lattice itself, as for a user field: in
+    drafts the quadrature of a state with several centres would take longer than all the
+    rest (the surface keeps its exact vertex psi; its report says ``lattice``)."""
+    from ..surface.level import level_for_fraction
+
+    stats.count("level", computed=True)
+    as_field = Lattice(lattice.values, lattice.origin_a0, lattice.spacing_a0, None)
+    return level_for_fraction(as_field, fraction)
 
 
 def make_request(req: Request, cache: DiskCache) -> tuple[CacheStats, float, str]:
