@@ -625,44 +625,50 @@ def _shade_resolve(tri, wts, faces, normals, phasors, front, lut, lp, back_gain,
 _BAND_ROWS = 16
 
 
-@numba.njit(cache=True, nogil=True)
-def _render_banded(px, py, zv, w, faces, skip, row_lo, row_hi, perspective, ss, normals, phasors,
+@numba.njit(cache=True, nogil=True, parallel=True)
+def _render_banded(px, py, zv, w, faces, band_start, band_faces, perspective, ss, normals, phasors,
                    front, lut, lp, back_gain, line_rgb, out, alpha):  # pragma: no cover - compiled
-    """Rasterize, shade and filter band by band, with small reused buffers: the same result as
-    rasterizing the whole supersampled image and then resolving it, without its memory."""
-    h_out = out.shape[0]
+    """Rasterize, shade and filter band by band (in parallel, each band with its own small
+    buffers): the same result as rasterizing the whole supersampled image and then resolving
+    it, without its memory.  band_faces[band_start[b]:band_start[b + 1]] are the triangles that
+    reach band b, in index order (so ties in depth go the same way whatever the threads)."""
     width = out.shape[1] * ss
-    height = h_out * ss
+    height = out.shape[0] * ss
     band = _BAND_ROWS * ss
-    depth = np.empty((band, width), dtype=np.float32)
-    tri = np.empty((band, width), dtype=np.int32)
-    wts = np.empty((band, width, 3), dtype=np.float32)
+    n_bands = band_start.shape[0] - 1
     clip = np.zeros((px.shape[0], 0))
-    order = np.argsort(row_lo)
-    active = np.empty(faces.shape[0], dtype=np.int64)
-    n_active = 0
-    p = 0
-    for y0 in range(0, height, band):
+    for b in numba.prange(n_bands):
+        y0 = b * band
         y1 = min(y0 + band, height)
-        depth[:, :] = np.inf
-        tri[:, :] = -1
-        while p < order.shape[0] and row_lo[order[p]] < y1:
-            t = order[p]
-            p += 1
-            if not skip[t] and row_hi[t] >= y0:
-                active[n_active] = t
-                n_active += 1
-        kept = 0
-        for a in range(n_active):
-            t = active[a]
-            if row_hi[t] < y0:
-                continue  # finished above this band
-            scan_triangle(t, px, py, zv, w, faces, clip, perspective, width, y0, y1, depth, tri, wts)
-            active[kept] = t
-            kept += 1
-        n_active = kept
-        _shade_resolve(tri[:y1 - y0], wts, faces, normals, phasors, front, lut, lp, back_gain, ss,
-                       line_rgb, out, alpha, y0 // ss)
+        depth = np.full((y1 - y0, width), np.inf, dtype=np.float32)
+        tri = np.full((y1 - y0, width), -1, dtype=np.int32)
+        wts = np.empty((y1 - y0, width, 3), dtype=np.float32)
+        for a in range(band_start[b], band_start[b + 1]):
+            scan_triangle(band_faces[a], px, py, zv, w, faces, clip, perspective, width, y0, y1,
+                          depth, tri, wts)
+        _shade_resolve(tri, wts, faces, normals, phasors, front, lut, lp, back_gain, ss, line_rgb,
+                       out, alpha, y0 // ss)
+
+
+def _bands(rows_px: np.ndarray, keep: np.ndarray, height: int, band: int) -> tuple[np.ndarray, np.ndarray]:
+    """CSR lists of the kept triangles reaching each band of `band` sample rows: (start, faces).
+
+    rows_px : (F, 3) vertex rows of each triangle.
+    """
+    lo = np.clip(np.floor(rows_px.min(axis=1) - 0.5), 0, height - 1).astype(np.int64) // band
+    hi = np.clip(np.ceil(rows_px.max(axis=1) - 0.5), 0, height - 1).astype(np.int64) // band
+    ok = keep & (rows_px.max(axis=1) >= -1) & (rows_px.min(axis=1) <= height + 1)
+    ids = np.flatnonzero(ok)
+    lo, hi = lo[ok], hi[ok]
+    count = hi - lo + 1
+    tri = np.repeat(ids, count)
+    first = np.repeat(np.cumsum(count) - count, count)
+    which = np.repeat(lo, count) + (np.arange(len(tri)) - first)
+    order = np.argsort(which, kind="stable")  # by band, index order within a band
+    n_bands = -(-height // band)
+    start = np.zeros(n_bands + 1, dtype=np.int64)
+    np.cumsum(np.bincount(which, minlength=n_bands), out=start[1:])
+    return start, tri[order]
 
 
 @numba.njit(cache=True, nogil=True)
@@ -964,11 +970,10 @@ def render_surfaces(surfaces: Surface | Sequence[Surface], width_px: int = 800, 
         shading = (mesh.faces, mesh.normals, mesh.phasors, mesh.front, _linear_lut(phase_map),
                    _light_params(lighting, proj), float(lighting.back_face), ss, line_lin)
         if segment is None:  # band by band (fast, little memory)
-            rows = y[mesh.faces]
-            row_lo = np.floor(rows.min(axis=1) - 0.5).astype(np.int64)
-            row_hi = np.ceil(rows.max(axis=1) - 0.5).astype(np.int64)
+            with np.errstate(invalid="ignore"):
+                start, band_faces = _bands(y[mesh.faces], mesh.front, proj.height, _BAND_ROWS * ss)
             w = np.ones(len(x)) if divisor is None else divisor
-            _render_banded(x, y, depth.astype(np.float64), w, mesh.faces, ~mesh.front, row_lo, row_hi,
+            _render_banded(x, y, depth.astype(np.float64), w, mesh.faces, start, band_faces,
                            divisor is not None, ss, *shading[1:-2], line_lin, premult, alpha)
         else:  # the whole image at once, so the line can be depth-tested against it
             frags = rasterize(x, y, depth, mesh.faces, proj.width, proj.height, None, divisor,
