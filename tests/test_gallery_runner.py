@@ -208,3 +208,19 @@ def test_caps_bound_resolution_and_size(tmp_path):
     report = res.records[0].report
     assert report["resolution"] == 16
     assert report["view"]["size_px"] == [150, 120]  # 200 x 160 scaled down, aspect kept
+
+
+class _Terminal(io.StringIO):
+    def isatty(self) -> bool:
+        return True
+
+
+def test_progress_on_a_terminal_is_one_line_redrawn(tmp_path):
+    text = '[[outputs]]\nname = "a"\nkind = "radial"\nstates = ["1s"]\ndpi = 40\n' \
+           '[[outputs]]\nname = "b"\nkind = "radial"\nstates = ["2s"]\ndpi = 40\n'
+    stream = _Terminal()
+    run_gallery(_config(tmp_path, text), tmp_path / "out", jobs=1, progress=stream)
+    shown = stream.getvalue()
+    # carriage returns redraw the bar; a newline only when the phase is complete
+    assert shown.count("\n") == 1 and shown.count("\r") >= 4
+    assert "2/2 drawing" in shown and "[" + "#" * 24 + "]" in shown
