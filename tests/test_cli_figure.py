@@ -52,7 +52,7 @@ def test_svg_and_pdf_keep_the_render_as_an_image_and_labels_as_text(tmp_path, ca
     assert _run(capsys, "2pz", *LOW, "--out", str(svg), "--units", "angstrom")[0] == 0
     body = svg.read_text()
     assert "<image" in body                      # the render, embedded raster
-    assert "<text" in body and "2pz" in body     # the title, as text
+    assert "<text" in body and "F = 0.9" in body  # the title, as text
     assert _run(capsys, "2pz", *LOW, "--out", str(pdf))[0] == 0
     raw = pdf.read_bytes()
     assert b"/Subtype /Image" in raw and b"/Font" in raw

@@ -75,6 +75,7 @@ __all__ = [
     "compose_figure",
     "figure_3d",
     "surface_title",
+    "pretty_label",
 ]
 
 PROJECTIONS = ("orthographic", "perspective")
@@ -1254,9 +1255,46 @@ def figure_3d(surfaces: Surface | Sequence[Surface], width_px: int = 900, height
     return fig, render
 
 
+_REAL_LABEL = re.compile(r"^(\d+)([spdf])(.*)$")
+_EIGEN_LABEL = re.compile(r"^(\d+),(\d+),(-?\d+)$")
+
+
+def pretty_label(label: str) -> str:
+    """A state label as typeset text (matplotlib mathtext): the Cartesian part of a real
+    orbital as a subscript with powers raised, |n l m> for an eigenstate; others unchanged.
+
+    Examples
+    --------
+    >>> pretty_label("3dx2-y2"), pretty_label("2pz"), pretty_label("3,2,-1")
+    ('3d$_{x^{2}-y^{2}}$', '2p$_{z}$', '$|3, 2, -1\\\\rangle$')
+    >>> pretty_label("1s"), pretty_label("1s@(0,0,-0.7) - 1s@(0,0,0.7)")
+    ('1s', '1s@(0,0,-0.7) - 1s@(0,0,0.7)')
+    """
+    from ..state.notation import REAL_LABELS
+
+    mt = _REAL_LABEL.match(label)
+    if mt and mt[2] + mt[3] in REAL_LABELS and mt[3]:
+        sub = re.sub(r"(\d)", r"^{\1}", mt[3])
+        return f"{mt[1]}{mt[2]}$_{{{sub}}}$"
+    mt = _EIGEN_LABEL.match(label)
+    if mt:
+        return rf"$|{mt[1]}, {mt[2]}, {mt[3]}\rangle$"
+    return label
+
+
 def surface_title(surface: Surface) -> str:
-    """Title text: the state label and the enclosed fraction F, e.g. ``3dz2, F = 0.9``."""
-    label = surface.state.label if surface.state is not None else "user field"
+    """Title text: the state label (typeset, :func:`pretty_label`) and the enclosed fraction F.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from orbitalrender.state.model import real_orbital
+    >>> s = Surface(np.zeros((0, 3)), np.zeros((0, 3), int), np.zeros((0, 3)), np.zeros(0), 1.0,
+    ...             0.9, None, None, (2, 2, 2), (1.0, 1.0, 1.0), real_orbital(3, 2, 0, label="3dz2"))
+    >>> surface_title(s)
+    '3d$_{z^{2}}$, F = 0.9'
+    """
+    label = pretty_label(surface.state.label) if surface.state is not None else "user field"
     if surface.fraction_requested is None:
         return label
     return f"{label}, F = {surface.fraction_requested:g}"
