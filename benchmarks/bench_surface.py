@@ -4,9 +4,9 @@ Ours: ``extract_surface(eigenstate(n, l, m), F, resolution=N)`` (symmetric compl
 sampling, level by quadrature, signed-field marching cubes, vertices projected onto the
 exact surface, exact psi and normals at the vertices).
 
-Baseline, what a practitioner writes by hand on the same box (default_box of the
-state) and the same N: the whole-box float64 scipy evaluation of
-``bench_sampling.baseline`` (meshgrid, eval_genlaguerre, sph_harm_y), |psi|^2,
+Baseline, what a practitioner writes by hand on the same box (the cube ours picks for
+F, :func:`orbitalrender.surface.extract.surface_box`) and the same N: the whole-box
+float64 scipy evaluation of ``bench_sampling.baseline`` (meshgrid, eval_genlaguerre, sph_harm_y), |psi|^2,
 ``np.sort`` of all densities and a cumulative sum times the voxel volume for the level,
 skimage marching cubes on the density, and psi at the vertices from the same scipy
 formulas.
@@ -80,14 +80,16 @@ def baseline_surface(n: int, l: int, m: int, resolution: int, half_width_a0: flo
 def run_case(method: str, n: int, l: int, m: int, resolution: int, fraction: float) -> dict:
     import numpy as np
 
-    from orbitalrender.lattice.sampler import default_box
     from orbitalrender.state.model import eigenstate
-    from orbitalrender.surface.extract import extract_surface
+    from orbitalrender.surface.extract import extract_surface, surface_box
+    from orbitalrender.surface.level import level_for_fraction
     from orbitalrender.surface.model import Surface
     from orbitalrender.surface.topology import topology
 
     state = eigenstate(n, l, m)
-    half = default_box(state).half_width_a0
+    # the baseline gets the cube ours chooses for this F (set-up, outside the timing), so
+    # that both mesh the same lattice points
+    half = surface_box(state, level_for_fraction(state, fraction).level, resolution).half_width_a0
 
     def job(res):
         if method == "ours":

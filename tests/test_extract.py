@@ -216,9 +216,19 @@ def test_surface_cut_by_the_box_is_refused():
 
 
 def test_empty_surface_is_refused():
-    # F = 1e-6 of 1s is a ball of radius ~0.01 a0, far inside the nearest lattice points
+    # F = 1e-6 of 1s is a ball of radius ~0.01 a0, far inside the nearest points of a
+    # lattice over the default box (spacing ~0.9 a0)
     with pytest.raises(ValueError, match="empty"):
-        extract_surface(eigenstate(1, 0, 0), 1e-6, resolution=16)
+        extract_surface(sample(eigenstate(1, 0, 0), resolution=16), 1e-6)
+
+
+def test_default_cube_fits_the_surface_so_small_fractions_resolve():
+    # the cube is chosen for F: the 1e-3 ball (radius 0.16 a0, closed form above) gets the
+    # whole lattice
+    surf = extract_surface(eigenstate(1, 0, 0), 1e-3, resolution=32)
+    radius = np.linalg.norm(surf.vertices_a0, axis=1)
+    assert abs(radius.mean() / _one_s_radius(1e-3) - 1) < 0.01
+    assert topology(surf).closed
 
 
 def test_box_with_a_lattice_is_refused():

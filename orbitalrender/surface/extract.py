@@ -29,16 +29,18 @@ import math
 
 import numpy as np
 from scipy import ndimage
+from scipy.optimize import brentq
 from skimage.measure import marching_cubes
 
 from ..lattice.grid import Box, Lattice
 from ..lattice.memory import require_lattice_memory, require_surface_memory, surface_bytes_per_point
 from ..lattice.sampler import sample
+from ..state.hydrogen import radial_function
 from ..state.model import State
 from .level import LevelResult, check_fraction, level_for_fraction
 from .model import Surface
 
-__all__ = ["extract_surface", "surface_at_level", "vertex_normals"]
+__all__ = ["extract_surface", "surface_at_level", "surface_box", "vertex_normals"]
 
 #: Largest imaginary part, relative to sqrt(level), that still counts as "real".
 _REAL_TOLERANCE = 1e-3
@@ -47,6 +49,8 @@ _AXIS_MARGIN = 1e-3
 #: Forward-difference step of the exact density gradient, relative to the lattice spacing:
 #: small against the curvature of the surface, large against float64 round-off.
 _GRADIENT_STEP = 1e-4
+#: Radii scanned for the reach of a surface (:func:`surface_box`).
+_BOX_SCAN = 4097
 #: Longest Newton step onto the exact surface, in lattice spacings.
 _MAX_STEP = 0.5
 
@@ -304,6 +308,45 @@ def surface_at_level(lattice: Lattice, level: LevelResult) -> Surface:
                    lattice_shape=lattice.shape, spacing_a0=lattice.spacing_a0, state=lattice.state)
 
 
+def surface_box(state: State, level: float, resolution: int = 128) -> Box | None:
+    """The smallest cube about the centre of a one-centre state sure to hold {|psi|^2 >= level}.
+
+    |psi| at distance r is at most sum_k |c_k| |R_k(r)| sqrt((2 l_k + 1) / (4 pi)), since
+    |Y_l^m| <= sqrt((2l + 1) / (4 pi)) (Unsold's theorem, e.g. DLMF 14.30.9); the cube
+    reaches the largest r where that bound reaches sqrt(level), plus two lattice
+    spacings, so the surface is closed inside it and the lattice is spent where the
+    surface is.  None for a state with several centres.
+
+    Examples
+    --------
+    >>> import math
+    >>> from orbitalrender.state.model import eigenstate
+    >>> level = math.exp(-2 * 2.0) / math.pi  # 1s density at r = 2 a0
+    >>> round(surface_box(eigenstate(1, 0, 0), level, resolution=101).half_width_a0, 3)  # 2 * 100/96
+    2.083
+    """
+    if not state.is_single_centre:
+        return None
+    amplitude = math.sqrt(level)
+    mu = state.reduced_mass_ratio
+
+    def bound(r):
+        return sum(abs(t.coefficient) * np.abs(radial_function(t.n, t.l, r, state.Z, mu))
+                   * math.sqrt((2 * t.l + 1) / (4 * math.pi)) for t in state.terms)
+
+    far = state.extent_a0()
+    while float(np.max(bound(np.linspace(far, 2 * far, 64)))) >= amplitude:
+        far *= 2.0
+    r = np.linspace(0.0, 2 * far, _BOX_SCAN)
+    above = np.flatnonzero(bound(r) >= amplitude)
+    if above.size == 0:
+        return None
+    k = int(above[-1])
+    reach = float(brentq(lambda x: float(bound(x)) - amplitude, r[k], r[k + 1]))
+    half = reach * (resolution - 1) / (resolution - 1 - 4)  # two spacings beyond the reach
+    return Box(state.centres_a0[0], half)
+
+
 def extract_surface(source: State | Lattice, fraction: float, resolution: int = 128,
                     box: Box | None = None, dtype=np.complex64) -> Surface:
     """The closed surface that encloses probability `fraction`, psi exact at every vertex.
@@ -319,7 +362,9 @@ def extract_surface(source: State | Lattice, fraction: float, resolution: int = 
     resolution : int
         Lattice points per axis when `source` is a state.
     box : Box, optional
-        Lattice cube when `source` is a state (default: :func:`default_box`).
+        Lattice cube when `source` is a state.  By default, for a state with one centre,
+        the smallest cube sure to hold the surface (:func:`surface_box`), so that all the
+        lattice is spent on it; otherwise :func:`default_box`.
     dtype : numpy dtype
         Lattice precision when `source` is a state.
 
@@ -350,8 +395,12 @@ def extract_surface(source: State | Lattice, fraction: float, resolution: int = 
         # both steps are refused together, before the lattice is allocated
         require_lattice_memory(int(resolution), dtype, extra_bytes_per_point=surface_bytes_per_point(dtype),
                                what="lattice with its surface")
+        level = level_for_fraction(source, fraction)
+        if box is None:
+            box = surface_box(source, level.level, int(resolution))
         lattice = sample(source, resolution=resolution, box=box, dtype=dtype)
-    elif isinstance(source, Lattice):
+        return surface_at_level(lattice, level)
+    if isinstance(source, Lattice):
         if box is not None:
             raise ValueError("a box can only be given with a state; a lattice has its own")
         lattice = source
