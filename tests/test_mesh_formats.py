@@ -98,6 +98,8 @@ def test_obj_vertex_lines_hold_position_and_colour(tmp_path):
     write_bodies(path, [mesh])
     rows = np.array([ln.split()[1:] for ln in path.read_text().splitlines() if ln.startswith("v ")], float)
     assert rows.shape == (len(mesh.vertices), 6)
+    # eight significant digits of the largest coordinate
+    np.testing.assert_allclose(rows[:, :3], mesh.vertices, rtol=0, atol=1e-7 * np.abs(mesh.vertices).max())
     # four decimals identify each of the 256 levels of an 8-bit channel exactly
     np.testing.assert_array_equal(np.round(rows[:, 3:] * 255), mesh.visual.vertex_colors[:, :3])
     loaded = trimesh.load(path, process=False)

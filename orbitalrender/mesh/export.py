@@ -118,8 +118,11 @@ def surface_mesh(surface: Surface, factor: float = 1.0, scheme: str = "uniform",
     rgba = np.empty((len(rgb), 4), dtype=np.uint8)
     rgba[:, :3] = np.clip(np.round(rgb * 255.0), 0, 255)
     rgba[:, 3] = 255
+    # the surface's normals (from the exact density gradient) stand in for trimesh's
+    # face-averaged ones; a uniform scale leaves them unchanged
     mesh = trimesh.Trimesh(np.asarray(surface.vertices_a0, float) * factor, surface.faces,
-                           vertex_colors=rgba, process=False, validate=False)
+                           vertex_normals=surface.normals, vertex_colors=rgba, process=False,
+                           validate=False)
     mesh.vertex_attributes["phase"] = surface.phase.astype(np.float32)
     mesh.vertex_attributes["density"] = (surface.magnitude ** 2).astype(np.float32)
     return mesh

@@ -33,9 +33,13 @@ def encode_glb(bodies: Sequence[trimesh.Trimesh], names: Sequence[str] | None = 
     """
     names = names or [f"body{i + 1}" for i in range(len(bodies))]
     scene = trimesh.Scene()
-    for name, body in zip(names, bodies):
-        body = body.copy()
-        if units:
-            body.units = units
-        scene.add_geometry(body, node_name=name, geom_name=name)
-    return trimesh.exchange.gltf.export_glb(scene, include_normals=True)
+    previous = [body.units for body in bodies]
+    try:
+        for name, body in zip(names, bodies):
+            if units:
+                body.units = units  # read by the writer into extras; restored below
+            scene.add_geometry(body, node_name=name, geom_name=name)
+        return trimesh.exchange.gltf.export_glb(scene, include_normals=True)
+    finally:
+        for body, unit in zip(bodies, previous):
+            body.units = unit
