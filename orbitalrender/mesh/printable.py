@@ -199,8 +199,9 @@ def solid_parts(mesh: trimesh.Trimesh) -> list[trimesh.Trimesh]:
         if owner is None:
             raise UserInputError("the surface has an inward-facing part that lies in no solid piece")
         members[owner].append(i)
-    parts = [concatenate([comps[k] for k in members[j]]) for j in outers]
-    return sorted(parts, key=lambda p: float(p.volume), reverse=True)
+    solid_volume = {j: sum(volumes[k] for k in members[j]) for j in outers}
+    order = sorted(outers, key=lambda j: solid_volume[j], reverse=True)
+    return [concatenate([comps[k] for k in members[j]]) for j in order]
 
 
 def _inside_intervals(mesh: trimesh.Trimesh, origin: np.ndarray, direction: np.ndarray
