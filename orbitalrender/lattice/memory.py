@@ -18,10 +18,12 @@ __all__ = ["MemoryLimitError", "available_bytes", "sampling_bytes", "largest_res
 _OCTANT_FRACTION = 0.125
 _SAFETY = 0.8  # use at most 80 % of what the operating system says is free (common practice)
 # Work of the surface step per lattice point, beyond the lattice: the float32 field that
-# marching cubes reads, plus one temporary as wide as the real part of the values (the
-# density whose maximum fixes the phase, then the imaginary-part check).  Measured with
-# tracemalloc (benchmarks/big_lattice.py prints it): 12.0 B for complex64, 20.0 B for
-# complex128, independent of N and of the state; the boolean crop mask fits in the same peak.
+# marching cubes reads, plus at most one temporary as wide as the real part of the values
+# (the density whose maximum fixes the phase, then the imaginary-part check).  An upper
+# bound: itemsize + 4 B = 12 B (complex64) and 20 B (complex128) were measured with
+# tracemalloc on the first version of the step; the current one peaks at 5.2-6.5 B
+# (complex64) and 7.1 B (complex128) at 160^3, and benchmarks/big_lattice.py shows 5.2 B
+# of RSS growth at 512^3.  Kept as the bound so a later change of the step stays covered.
 _SURFACE_FIELD_BYTES = 4
 # Renderer buffers per supersampled pixel: z-buffer (float64), triangle index (int32),
 # barycentric weights (3 float32), linear colour (3 float32), depth, alpha and masks.
