@@ -25,6 +25,7 @@ from .lattice.grid import Box, Lattice
 from .lattice.sampler import default_box, sample
 from .lattice.userfield import load_field, save_field
 from .mesh.export import length_scale, surface_mesh, write_bodies
+from .mesh.pipeline import export_mesh
 from .mesh.printable import PrintOptions, make_printable, split_by_sign, thin_spots
 from .picture.layout import shell_states, small_multiples, time_strip
 from .picture.output import figure_metadata, save_figure, write_report
@@ -46,7 +47,8 @@ __all__ = [
     "Box", "Lattice", "default_box", "sample", "load_field", "save_field",
     "Surface", "LevelResult", "level_for_fraction", "extract_surface",
     "Topology", "topology", "split_components",
-    "length_scale", "surface_mesh", "write_bodies", "PrintOptions", "make_printable", "split_by_sign",
+    "export_mesh", "length_scale", "surface_mesh", "write_bodies", "PrintOptions", "make_printable",
+    "split_by_sign",
     "thin_spots",
     "figure_metadata", "save_figure", "write_report",
     "plane", "cross_section", "section_figure", "radial_figure", "radial_marks",

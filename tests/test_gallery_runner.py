@@ -178,9 +178,10 @@ def test_an_output_that_fails_leaves_the_others_and_its_old_file(tmp_path, capsy
     name = "tiny"
     kind = "figure"
     state = "1s"
-    resolution = 8
-    fraction = 0.01
-    """
+    resolution = 16
+    fraction = 0.9
+    box_a0 = 1.0
+    """  # the 90 % sphere has radius 2.6612 a0: a box of half-width 1 a0 cuts it
     cfg = _config(tmp_path, text)
     out = tmp_path / "out"
     out.mkdir()

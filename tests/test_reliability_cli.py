@@ -61,7 +61,7 @@ QUICK = {
     "figure": (lambda t: ["figure", "2pz", "--resolution", "20", "--size", "240x160", "--supersample", "1",
                           "--out", t / "f.png"], "f.png", "orbitalrender.cli.figure.figure_3d"),
     "mesh": (lambda t: ["mesh", "2pz", "--fraction", "0.8", "--resolution", "20", "--out", t / "m.ply"],
-             "m.ply", "orbitalrender.cli.mesh.surface_mesh"),
+             "m.ply", "orbitalrender.mesh.pipeline.surface_mesh"),
     "section": (lambda t: ["section", "2pz", "--pixels", "32", "--out", t / "s.png"], "s.png",
                 "orbitalrender.cli.section.save_figure"),
     "radial": (lambda t: ["radial", "2pz", "--out", t / "r.png"], "r.png",
@@ -153,7 +153,7 @@ COMMAND_ERRORS = {
     "figure": [
         (["--fraction", "nan"], "--fraction"),
         (["--fraction", "1"], "--fraction"),
-        (["--resolution", "4"], "resolution must be at least 8"),
+        (["--resolution", "4"], "at least 8"),
         (["--resolution", "5000"], "the largest resolution that fits is"),
         (["--box", "0.5"], "edge of the lattice"),
         (["--box", "nan"], "half-width"),
@@ -172,7 +172,7 @@ COMMAND_ERRORS = {
     ],
     "mesh": [
         (["--fraction", "0"], "fraction"),
-        (["--fraction", "0.999999"], "edge of the lattice"),
+        (["--box", "0.5"], "edge of the lattice"),
         (["--resolution", "5000"], "the largest resolution that fits is"),
         (["--out", "m.xyz"], ".xyz"),
         (["--size-mm", "-3"], "millimetres"),

@@ -21,7 +21,7 @@ from ..atomic import check_writable
 from ..errors import UserInputError
 from ..lattice.grid import Box
 from ..lattice.memory import require_lattice_memory, require_render_memory, surface_bytes_per_point
-from ..lattice.sampler import default_box, sample
+from ..lattice.sampler import default_box
 from ..picture.colormap import PHASE_SCHEMES
 from ..picture.layout import default_columns, shell_states, small_multiples, time_strip
 from ..picture.output import default_output_path, figure_format, figure_metadata, save_figure, write_report
@@ -180,7 +180,7 @@ def _surface(state, args: argparse.Namespace):
 
     box = Box(default_box(state).centre_a0, args.box) if args.box is not None else None
     dtype = np.complex64 if args.precision == "single" else np.complex128
-    return extract_surface(sample(state, args.resolution, box, dtype), args.fraction)
+    return extract_surface(state, args.fraction, args.resolution, box, dtype)
 
 
 def _panel_record(surface) -> dict:

@@ -20,34 +20,22 @@ from ..atomic import check_writable
 from ..errors import UserInputError
 from ..lattice.grid import Box
 from ..lattice.memory import require_lattice_memory, surface_bytes_per_point
-from ..lattice.sampler import default_box, sample
-from ..mesh.export import (
-    length_scale,
-    mesh_suffix,
-    surface_mesh,
-    surface_report,
-    write_bodies,
-)
+from ..lattice.sampler import default_box
+from ..mesh.export import length_scale, mesh_suffix
+from ..mesh.pipeline import export_mesh
 from ..mesh.printable import (
     BASES,
     DEFAULT_MIN_GAP_MM,
     DEFAULT_MIN_THICKNESS_MM,
     DEFAULT_STRUT_FRACTION,
     PrintOptions,
-    make_printable,
-    phase_band_surfaces,
-    require_single_solid,
-    single_solid_problems,
-    solid_parts,
-    split_by_sign,
-    thin_spots,
 )
 from ..picture.colormap import PHASE_SCHEMES
 from ..picture.output import write_report
 from ..state.units import LENGTH_UNITS_PER_A0
 from .common import add_lattice_arguments, add_state_arguments, state_from_args
 
-__all__ = ["register", "run", "sibling_path"]
+__all__ = ["register", "run"]
 
 _DEFAULT_RESOLUTION = 128
 
@@ -94,17 +82,6 @@ def register(subparsers) -> None:
     p.set_defaults(run=run)
 
 
-def sibling_path(path: Path, name: str) -> Path:
-    """FILE_name.EXT beside FILE.EXT.
-
-    Examples
-    --------
-    >>> sibling_path(Path("out/2pz.stl"), "part1").as_posix()
-    'out/2pz_part1.stl'
-    """
-    return path.with_name(f"{path.stem}_{name}{path.suffix}")
-
-
 def _check_options(args: argparse.Namespace) -> tuple[Path, str]:
     """Refuse inconsistent options before any work; returns the output path and its suffix."""
     out = Path(args.out)
@@ -129,7 +106,7 @@ def _check_options(args: argparse.Namespace) -> tuple[Path, str]:
 
 
 def run(args: argparse.Namespace) -> int:
-    out, suffix = _check_options(args)
+    out, _ = _check_options(args)
     state = state_from_args(args)
     options = None
     if args.printable or args.parts:
@@ -138,76 +115,22 @@ def run(args: argparse.Namespace) -> int:
     if args.split == "sign" and not state.is_real:
         raise UserInputError("--split sign needs a real state (psi real up to one global phase); "
                              "use --split phase for a complex state")
-    from ..surface.extract import extract_surface  # the surface step
+    from ..surface.extract import sample_for_surface, surface_at_level  # the surface step
+    from ..surface.level import level_for_fraction
 
     box = Box(default_box(state).centre_a0, args.box) if args.box is not None else None
     dtype = np.complex64 if args.precision == "single" else np.complex128
-    lattice = sample(state, args.resolution, box, dtype)
-    surface = extract_surface(lattice, args.fraction)
-    factor, unit = length_scale(surface.vertices_a0, args.units, args.size_mm)
-    mesh = surface_mesh(surface, factor, args.phase_map)
-    comment = f"{state.label or args.state}; F = {args.fraction:g}; units {unit}"
-    extra: dict = {}
-    files: list[str] = []
-
-    def write(path: Path, bodies, names=None, check=None):
-        loaded = write_bodies(path, bodies, names=names, comment=comment, units=unit, check=check)
-        files.append(str(path))
-        return loaded
-
-    if args.parts:
-        pieces = solid_parts(mesh)
-        summaries = []
-        for i, piece in enumerate(pieces, start=1):
-            path = sibling_path(out, f"part{i}")
-            written = write(path, [piece])
-            summaries.append({"file": str(path), "problems": single_solid_problems(written),
-                              "volume_mm3": float(written.volume),
-                              "thin_walls": thin_spots(written, options.min_thickness_mm).as_dict()})
-        extra["parts"] = summaries
-        written = mesh
-    elif args.printable:
-        model = make_printable(mesh, options)
-        written = write(out, [model.mesh], check=require_single_solid)
-        extra["printable"] = {
-            "parts_joined": model.parts_joined,
-            "cutaway": model.cutaway,
-            "supports": [vars(s) for s in model.supports],
-            "thin_walls": thin_spots(model.mesh, options.min_thickness_mm, "wall").as_dict(),
-            "narrow_gaps": thin_spots(model.mesh, options.min_gap_mm, "gap").as_dict(),
-        }
-    elif args.split:
-        if args.split == "sign":
-            named = split_by_sign(mesh, surface.psi)
-        else:
-            band_surfaces = phase_band_surfaces(lattice, surface.level, args.bands)
-            named = {f"band{k + 1}": surface_mesh(b, factor, args.phase_map)
-                     for k, b in enumerate(band_surfaces)}
-        names, bodies = list(named), list(named.values())
-        if args.separate or suffix == ".stl":
-            for name, body in named.items():
-                write(sibling_path(out, name), [body])
-        else:
-            write(out, bodies, names=names)
-        extra["bodies"] = {name: {"faces": int(len(b.faces)), "watertight": bool(b.is_watertight),
-                                  "mean_phase_rad": _mean_phase(b)} for name, b in named.items()}
-        written = mesh
-    else:
-        written = write(out, [mesh])
-
-    report = surface_report(surface, written, factor, unit, args.size_mm)
-    report.update(extra)
-    report["files"] = files
+    level = level_for_fraction(state, args.fraction)
+    lattice = sample_for_surface(state, level, args.resolution, box, dtype)
+    surface = surface_at_level(lattice, level)
+    report = export_mesh(surface, out, units=args.units, size_mm=args.size_mm,
+                         phase_map=args.phase_map, printable=options,
+                         parts=args.parts, split=args.split, bands=args.bands,
+                         separate=args.separate, lattice=lattice)
     if args.report:
         write_report(args.report, report)
-    _print_summary(report, files)
+    _print_summary(report, report["files"])
     return 0
-
-
-def _mean_phase(mesh) -> float:
-    """Circular mean of the vertex phases of a body, radians."""
-    phase = np.asarray(mesh.vertex_attributes["phase"], float)
-    return float(np.angle(np.mean(np.exp(1j * phase))))
 
 
 def _print_summary(report: dict, files: list[str]) -> None:

@@ -154,7 +154,7 @@ def _level(req: Request, cache: DiskCache, stats: CacheStats, lattice: Lattice |
 
 
 def _surface(req: Request, cache: DiskCache, stats: CacheStats) -> Surface:
-    from ..surface.extract import surface_at_level
+    from ..surface.extract import surface_at_level, surface_box
 
     dtype = _DTYPES[req.precision]
     if req.state is None:
@@ -165,10 +165,15 @@ def _surface(req: Request, cache: DiskCache, stats: CacheStats) -> Surface:
                               req.box, dtype, compute)
 
     def compute() -> Surface:
-        lattice = cached_lattice(cache, stats, req.state, req.resolution, req.box, dtype)
         if req.level_rule == "lattice":
+            lattice = cached_lattice(cache, stats, req.state, req.resolution, req.box, dtype)
             return surface_at_level(lattice, _draft_level(lattice, req.fraction, stats))
-        return surface_at_level(lattice, _level(req, cache, stats))
+        # as extract_surface does: the level first, then the lattice in the cube that
+        # is sure to hold the surface
+        level = _level(req, cache, stats)
+        box = req.box or surface_box(req.state, level.level, req.resolution)
+        lattice = cached_lattice(cache, stats, req.state, req.resolution, box, dtype)
+        return surface_at_level(lattice, level)
     return cached_surface(cache, stats, req.state, req.fraction, req.resolution, req.box, dtype,
                           compute, req.level_rule)
 
@@ -545,36 +550,14 @@ def _mesh_print_options(work: _Work):
 
 @_drawer("mesh")
 def _draw_mesh(work: _Work, path: Path):
-    from ..mesh.export import length_scale, surface_mesh, surface_report, write_bodies
-    from ..mesh.printable import make_printable, require_single_solid, split_by_sign, thin_spots
+    from ..mesh.pipeline import export_mesh
 
     o = work.spec.options
     surface = work.surfaces()[0]
-    size_mm = o.get("size_mm")
-    factor, unit = length_scale(surface.vertices_a0, work.opt("units"), size_mm)
-    mesh = surface_mesh(surface, factor, work.opt("phase_map"))
-    label = surface.state.label if surface.state is not None else Path(o["field"]).stem
-    comment = f"{label}; F = {surface.fraction_requested:g}; units {unit}"
-    extra: dict[str, Any] = {}
-    if o.get("printable", False):
-        options = _mesh_print_options(work)
-        model = make_printable(mesh, options)
-        written = write_bodies(path, [model.mesh], comment=comment, units=unit, check=require_single_solid)
-        extra["printable"] = {
-            "parts_joined": model.parts_joined, "cutaway": model.cutaway,
-            "supports": [vars(s) for s in model.supports],
-            "thin_walls": thin_spots(model.mesh, options.min_thickness_mm, "wall").as_dict(),
-            "narrow_gaps": thin_spots(model.mesh, options.min_gap_mm, "gap").as_dict(),
-        }
-    elif o.get("split_sign", False):
-        named = split_by_sign(mesh, surface.psi)
-        write_bodies(path, list(named.values()), names=list(named), comment=comment, units=unit)
-        extra["bodies"] = {name: {"faces": int(len(b.faces)), "watertight": bool(b.is_watertight)}
-                           for name, b in named.items()}
-        written = mesh
-    else:
-        written = write_bodies(path, [mesh], comment=comment, units=unit)
-    report = surface_report(surface, written, factor, unit, size_mm)
-    report.update(extra)
+    printable = o.get("printable", False)
+    report = export_mesh(surface, path, units=work.opt("units"), size_mm=o.get("size_mm"),
+                         phase_map=work.opt("phase_map"),
+                         printable=_mesh_print_options(work) if printable else None,
+                         split="sign" if o.get("split_sign", False) else None)
     report["files"] = [work.spec.file]
     return report, _render_thumbnail(surface, work.opt("phase_map"))

@@ -32,7 +32,7 @@ from ..state.radial import radius_holding
 from .grid import Box, Lattice
 from .memory import require_lattice_memory
 
-__all__ = ["default_box", "sample", "BOX_FRACTION", "BOX_PADDING"]
+__all__ = ["default_box", "sample", "check_resolution", "BOX_FRACTION", "BOX_PADDING"]
 
 #: The default box holds all but this much of each term's radial probability.
 BOX_FRACTION = 1.0 - 1e-4
@@ -200,6 +200,13 @@ def _sample_symmetric(state: State, box: Box, resolution: int, out: np.ndarray) 
                     np.array([t.m for t in state.terms]), radial_rl, q_mm, legendre_a, 1.0 / legendre_a)
 
 
+def check_resolution(resolution: int) -> int:
+    """`resolution` as int, or ValueError unless it is a whole number of at least 8 points per axis."""
+    if int(resolution) != resolution or resolution < 8:
+        raise ValueError(f"resolution must be a whole number of at least 8, got {resolution}")
+    return int(resolution)
+
+
 def sample(state: State, resolution: int = 128, box: Box | None = None,
            dtype=np.complex64) -> Lattice:
     """Evaluate psi on a regular ``resolution^3`` lattice.
@@ -235,9 +242,7 @@ def sample(state: State, resolution: int = 128, box: Box | None = None,
     >>> bool(abs((lat.density().sum() * lat.voxel_volume_a0_3) - 1) < 1e-3)
     True
     """
-    resolution = int(resolution)
-    if resolution < 8:
-        raise ValueError(f"resolution must be at least 8, got {resolution}")
+    resolution = check_resolution(resolution)
     dtype = np.dtype(dtype)
     if dtype not in (np.complex64, np.complex128):
         raise ValueError(f"dtype must be complex64 or complex128, got {dtype}")

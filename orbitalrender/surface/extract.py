@@ -34,7 +34,7 @@ from skimage.measure import marching_cubes
 
 from ..lattice.grid import Box, Lattice
 from ..lattice.memory import require_lattice_memory, require_surface_memory, surface_bytes_per_point
-from ..lattice.sampler import sample
+from ..lattice.sampler import check_resolution, sample
 from ..state.hydrogen import radial_function
 from ..state.model import State
 from .level import LevelResult, check_fraction, level_for_fraction
@@ -347,6 +347,26 @@ def surface_box(state: State, level: float, resolution: int = 128) -> Box | None
     return Box(state.centres_a0[0], half)
 
 
+def sample_for_surface(state: State, level: LevelResult, resolution: int = 128,
+                       box: Box | None = None, dtype=np.complex64) -> Lattice:
+    """The lattice :func:`extract_surface` meshes for `state` at `level`: in `box`, or by
+    default in :func:`surface_box` (one centre) or :func:`default_box` (several).
+
+    Examples
+    --------
+    >>> from orbitalrender.state.model import eigenstate
+    >>> from orbitalrender.surface.level import level_for_fraction
+    >>> s = eigenstate(1, 0, 0)
+    >>> lat = sample_for_surface(s, level_for_fraction(s, 0.9), resolution=33)
+    >>> lat.shape, round(lat.extent_a0()[0][1], 3)  # 2.6612 a0 x 32/28: two spacings to spare
+    ((33, 33, 33), 3.041)
+    """
+    resolution = check_resolution(resolution)
+    if box is None:
+        box = surface_box(state, level.level, resolution)
+    return sample(state, resolution=resolution, box=box, dtype=dtype)
+
+
 def extract_surface(source: State | Lattice, fraction: float, resolution: int = 128,
                     box: Box | None = None, dtype=np.complex64) -> Surface:
     """The closed surface that encloses probability `fraction`, psi exact at every vertex.
@@ -392,14 +412,12 @@ def extract_surface(source: State | Lattice, fraction: float, resolution: int = 
     """
     fraction = check_fraction(fraction)
     if isinstance(source, State):
+        resolution = check_resolution(resolution)
         # both steps are refused together, before the lattice is allocated
-        require_lattice_memory(int(resolution), dtype, extra_bytes_per_point=surface_bytes_per_point(dtype),
+        require_lattice_memory(resolution, dtype, extra_bytes_per_point=surface_bytes_per_point(dtype),
                                what="lattice with its surface")
         level = level_for_fraction(source, fraction)
-        if box is None:
-            box = surface_box(source, level.level, int(resolution))
-        lattice = sample(source, resolution=resolution, box=box, dtype=dtype)
-        return surface_at_level(lattice, level)
+        return surface_at_level(sample_for_surface(source, level, resolution, box, dtype), level)
     if isinstance(source, Lattice):
         if box is not None:
             raise ValueError("a box can only be given with a state; a lattice has its own")

@@ -1,0 +1,169 @@
+"""Mesh step, whole: a Surface to written mesh files (plain, printable, parts or bodies) and their report.
+
+The command line (``orbitalrender mesh``), the gallery and Python users all call
+:func:`export_mesh`, so the same request gives the same files and the same report
+everywhere.
+"""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+
+import numpy as np
+
+from ..errors import UserInputError
+from ..lattice.grid import Lattice
+from ..surface.model import Surface
+from .export import length_scale, mesh_suffix, surface_mesh, surface_report, write_bodies
+from .printable import (
+    PrintOptions,
+    make_printable,
+    phase_band_surfaces,
+    require_single_solid,
+    single_solid_problems,
+    solid_parts,
+    split_by_sign,
+    thin_spots,
+)
+
+__all__ = ["export_mesh", "sibling_path", "SPLITS"]
+
+SPLITS = ("sign", "phase")
+
+
+def sibling_path(path: str | os.PathLike, name: str) -> Path:
+    """FILE_name.EXT beside FILE.EXT.
+
+    Examples
+    --------
+    >>> sibling_path("out/2pz.stl", "part1").as_posix()
+    'out/2pz_part1.stl'
+    """
+    path = Path(path)
+    return path.with_name(f"{path.stem}_{name}{path.suffix}")
+
+
+def _mean_phase(mesh) -> float:
+    """Circular mean of the vertex phases of a body, radians."""
+    phase = np.asarray(mesh.vertex_attributes["phase"], float)
+    return float(np.angle(np.mean(np.exp(1j * phase))))
+
+
+def export_mesh(surface: Surface, path: str | os.PathLike, *, units: str = "a0",
+                size_mm: float | None = None, phase_map: str = "uniform",
+                printable: PrintOptions | None = None, parts: bool = False,
+                split: str | None = None, bands: int = 4, separate: bool = False,
+                lattice: Lattice | None = None) -> dict:
+    """Write `surface` as a mesh file (format from the suffix of `path`) and return the report.
+
+    Parameters
+    ----------
+    surface : Surface
+        From :func:`orbitalrender.surface.extract.extract_surface`.
+    path : path-like
+        ``.ply``, ``.obj``, ``.stl`` or ``.glb``.
+    units : str
+        Length unit of the coordinates (a0, angstrom, nm, pm) when `size_mm` is None.
+    size_mm : float, optional
+        Scale so the largest side of the bounding box is this many millimetres.
+    phase_map : str
+        Vertex colour scheme (see :mod:`orbitalrender.picture.colormap`).
+    printable : PrintOptions, optional
+        Join the pieces into one checked solid with struts and a base (needs `size_mm`).
+    parts : bool
+        Write each solid piece to FILE_partK.EXT instead of joining them; the wall limit
+        comes from `printable` (default :class:`PrintOptions`).
+    split : {"sign", "phase"}, optional
+        Bodies by the sign of psi (real states) or by `bands` phase bands (needs `lattice`).
+    separate : bool
+        With `split`, one file per body (always so for STL).
+    lattice : Lattice, optional
+        The lattice the surface came from; needed for ``split="phase"``.
+
+    Returns
+    -------
+    dict
+        JSON-ready: the surface's provenance, the written mesh's counts, components, Euler
+        characteristics, watertightness and volume, ``files``, and after `size_mm` also
+        ``size_mm`` and ``material_cm3``.
+
+    Examples
+    --------
+    >>> import tempfile, pathlib
+    >>> from orbitalrender import eigenstate
+    >>> from orbitalrender.surface.extract import extract_surface
+    >>> s = extract_surface(eigenstate(1, 0, 0), 0.9, resolution=32)
+    >>> out = pathlib.Path(tempfile.mkdtemp()) / "1s.stl"
+    >>> rep = export_mesh(s, out, size_mm=50)
+    >>> rep["components"], rep["watertight"], round(max(rep["extent_mm"]), 6)
+    (1, True, 50.0)
+    """
+    path = Path(path)
+    suffix = mesh_suffix(path)
+    if split is not None and split not in SPLITS:
+        raise UserInputError(f"unknown split {split!r}: use one of {', '.join(SPLITS)}")
+    if (printable is not None or parts) and size_mm is None:
+        raise UserInputError("printing options need a printed size in millimetres (size_mm)")
+    if split and (printable is not None or parts):
+        raise UserInputError("a split writes bodies for multi-material printing and cannot be "
+                             "combined with a printable model or parts")
+    if split == "sign" and surface.state is not None and not surface.state.is_real:
+        raise UserInputError("a sign split needs a real state (psi real up to one global phase); "
+                             "split by phase for a complex state")
+    if split == "phase" and lattice is None:
+        raise UserInputError("a phase split needs the lattice the surface came from")
+    factor, unit = length_scale(surface.vertices_a0, units, size_mm)
+    mesh = surface_mesh(surface, factor, phase_map)
+    label = surface.state.label if surface.state is not None else "user field"
+    comment = f"{label}; F = {surface.fraction_requested:g}; units {unit}"
+    extra: dict = {}
+    files: list[str] = []
+
+    def write(target: Path, bodies, names=None, check=None):
+        loaded = write_bodies(target, bodies, names=names, comment=comment, units=unit, check=check)
+        files.append(str(target))
+        return loaded
+
+    if parts:
+        options = printable if printable is not None else PrintOptions()
+        summaries = []
+        for i, piece in enumerate(solid_parts(mesh), start=1):
+            target = sibling_path(path, f"part{i}")
+            written = write(target, [piece])
+            summaries.append({"file": str(target), "problems": single_solid_problems(written),
+                              "volume_mm3": float(written.volume),
+                              "thin_walls": thin_spots(written, options.min_thickness_mm).as_dict()})
+        extra["parts"] = summaries
+        written = mesh
+    elif printable is not None:
+        model = make_printable(mesh, printable)
+        written = write(path, [model.mesh], check=require_single_solid)
+        extra["printable"] = {
+            "parts_joined": model.parts_joined,
+            "cutaway": model.cutaway,
+            "supports": [vars(s) for s in model.supports],
+            "thin_walls": thin_spots(model.mesh, printable.min_thickness_mm, "wall").as_dict(),
+            "narrow_gaps": thin_spots(model.mesh, printable.min_gap_mm, "gap").as_dict(),
+        }
+    elif split:
+        if split == "sign":
+            named = split_by_sign(mesh, surface.psi)
+        else:
+            named = {f"band{k + 1}": surface_mesh(b, factor, phase_map)
+                     for k, b in enumerate(phase_band_surfaces(lattice, surface.level, bands))}
+        if separate or suffix == ".stl":
+            for name, body in named.items():
+                write(sibling_path(path, name), [body])
+        else:
+            write(path, list(named.values()), names=list(named))
+        extra["bodies"] = {name: {"faces": int(len(b.faces)), "watertight": bool(b.is_watertight),
+                                  "mean_phase_rad": _mean_phase(b)} for name, b in named.items()}
+        written = mesh
+    else:
+        written = write(path, [mesh])
+
+    report = surface_report(surface, written, factor, unit, size_mm)
+    report.update(extra)
+    report["files"] = files
+    return report
