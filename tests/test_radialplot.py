@@ -10,7 +10,7 @@ from sympy.physics.hydrogen import R_nl
 
 from orbitalrender.picture.radialplot import draw_radial, radial_figure, radial_marks
 from orbitalrender.state.model import eigenstate, real_orbital, superpose
-from orbitalrender.state.notation import parse_state
+from orbitalrender.state.notation import parse_state, pretty_label
 from orbitalrender.state.units import a0_to
 
 
@@ -83,13 +83,14 @@ def test_R_curves_match_sympy():
     states = [eigenstate(3, 1, -1, label="3,1,-1"), real_orbital(4, 2, 2, Z=2.0, label="4dx2-y2 (Z=2)")]
     fig, _ = radial_figure(states, ["R"])
     ax = fig.axes[0]
-    curves = [ln for ln in ax.lines if ln.get_label() in ("3,1,-1", "4dx2-y2 (Z=2)")]
+    names = (pretty_label("3,1,-1"), "4dx2-y2 (Z=2)")  # the legend typesets |n, l, m>
+    curves = [ln for ln in ax.lines if ln.get_label() in names]
     for line, (n, l, Z) in zip(curves, [(3, 1, 1), (4, 2, 2)]):
         ref = lambdify(r_, R_nl(n, l, r_, Z), "numpy")
         x = np.asarray(line.get_xdata())
         np.testing.assert_allclose(line.get_ydata(), ref(x), atol=1e-12)
     labels = [t.get_text() for t in fig.legends[0].get_texts()]
-    assert labels == ["3,1,-1", "4dx2-y2 (Z=2)"]
+    assert labels == list(names)
 
 
 def test_shell_combinations_are_allowed_others_not():

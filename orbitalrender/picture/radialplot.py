@@ -27,6 +27,7 @@ from matplotlib.lines import Line2D
 
 from ..state.hydrogen import radial_function
 from ..state.model import State
+from ..state.notation import pretty_label
 from ..state.properties import most_probable_radius, radial_node_radii, shell_of
 from ..state.radial import radial_cumulative, radius_holding
 from ..state.units import a0_to
@@ -193,7 +194,8 @@ def draw_radial(ax, states: Sequence[State], quantity: str, fraction: float = 0.
         marks = radial_marks(state, fraction)
         out.append(marks)
         y = _curve(state, quantity, r) * scale
-        ax.plot(r * k, y, color=colour, lw=1.3, label=state.label or f"state {i + 1}", zorder=3)
+        name = pretty_label(state.label) if state.label else f"state {i + 1}"
+        ax.plot(r * k, y, color=colour, lw=1.3, label=name, zorder=3)
         for node in marks.node_radii_a0:
             ax.axvline(node * k, color=colour, ls=_NODE_STYLE, lw=0.9, zorder=1)
         ax.axvline(marks.most_probable_a0 * k, color=colour, ls=_PEAK_STYLE, lw=0.9, zorder=1)
@@ -289,13 +291,14 @@ def radial_figure(states: Sequence[State], quantities: Sequence[str] = RADIAL_QU
         y -= line_in * 1.1 / height
         colour = _STATE_COLOURS[i % len(_STATE_COLOURS)]
         nodes = ", ".join(f"{r * k:.4g}" for r in m.node_radii_a0) or "none"
-        fig.text(0.775, y, f"{m.label or f'state {i + 1}'}\n  nodes: {nodes}\n"
+        fig.text(0.775, y, f"{pretty_label(m.label) if m.label else f'state {i + 1}'}\n  nodes: {nodes}\n"
                  f"  most probable: {m.most_probable_a0 * k:.4g}\n"
                  f"  {100 * m.fraction:.4g} % within: {m.holding_a0 * k:.4g}",
                  fontsize=7, va="top", color=colour, linespacing=1.25)
         y -= line_in * 3.1 / height
     if title is None:
-        title = "Radial functions" if len(states) > 1 else f"Radial functions of {states[0].label}"
+        title = ("Radial functions" if len(states) > 1
+                 else f"Radial functions of {pretty_label(states[0].label)}")
     fig.suptitle(title, fontsize=10, x=0.44, y=1.0 - 0.18 / height, va="top")
     return fig, marks
 

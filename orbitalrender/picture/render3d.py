@@ -52,6 +52,7 @@ import numba
 import numpy as np
 
 from ..lattice.memory import require_render_memory
+from ..state.notation import pretty_label
 from ..surface.model import Surface
 from .colormap import PHASE_SCHEMES, linear_to_srgb, phase_to_rgb, real_rotation, srgb_to_linear
 from .raster import Fragments, rasterize, scan_triangle
@@ -75,7 +76,6 @@ __all__ = [
     "compose_figure",
     "figure_3d",
     "surface_title",
-    "pretty_label",
 ]
 
 PROJECTIONS = ("orthographic", "perspective")
@@ -1253,33 +1253,6 @@ def figure_3d(surfaces: Surface | Sequence[Surface], width_px: int = 900, height
     fig = compose_figure([render], geometry, [title] if title else None, units, legend, scale_bar,
                          transparent)
     return fig, render
-
-
-_REAL_LABEL = re.compile(r"^(\d+)([spdf])(.*)$")
-_EIGEN_LABEL = re.compile(r"^(\d+),(\d+),(-?\d+)$")
-
-
-def pretty_label(label: str) -> str:
-    """A state label as typeset text (matplotlib mathtext): the Cartesian part of a real
-    orbital as a subscript with powers raised, |n l m> for an eigenstate; others unchanged.
-
-    Examples
-    --------
-    >>> pretty_label("3dx2-y2"), pretty_label("2pz"), pretty_label("3,2,-1")
-    ('3d$_{x^{2}-y^{2}}$', '2p$_{z}$', '$|3, 2, -1\\\\rangle$')
-    >>> pretty_label("1s"), pretty_label("1s@(0,0,-0.7) - 1s@(0,0,0.7)")
-    ('1s', '1s@(0,0,-0.7) - 1s@(0,0,0.7)')
-    """
-    from ..state.notation import REAL_LABELS
-
-    mt = _REAL_LABEL.match(label)
-    if mt and mt[2] + mt[3] in REAL_LABELS and mt[3]:
-        sub = re.sub(r"(\d)", r"^{\1}", mt[3])
-        return f"{mt[1]}{mt[2]}$_{{{sub}}}$"
-    mt = _EIGEN_LABEL.match(label)
-    if mt:
-        return rf"$|{mt[1]}, {mt[2]}, {mt[3]}\rangle$"
-    return label
 
 
 def surface_title(surface: Surface) -> str:

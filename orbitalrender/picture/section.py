@@ -37,6 +37,7 @@ from ..lattice.grid import Lattice
 from ..lattice.memory import require_bytes
 from ..lattice.sampler import default_box
 from ..state.model import State
+from ..state.notation import pretty_label
 from ..state.units import a0_to
 from ..surface.level import level_for_fraction
 from .colormap import PHASE_SCHEMES, linear_to_srgb, phase_to_rgb, real_rotation, srgb_to_linear
@@ -749,7 +750,7 @@ def section_figure(section: Section, scheme: str = "uniform", scale: str = "line
     proxies = draw_section(ax, section, scheme, scale, decades, units, nodes)
     state = section.state
     if label is None:
-        label = state.label if state is not None and state.label else "user field"
+        label = pretty_label(state.label) if state is not None and state.label else "user field"
     if state is not None and state.time_au != 0.0:
         label += f" at t = {state.time_au:.4g} au"
     if title is None:

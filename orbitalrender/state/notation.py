@@ -26,7 +26,7 @@ from dataclasses import dataclass
 
 from .model import State, eigenstate, real_orbital, superpose
 
-__all__ = ["REAL_LABELS", "parse_state", "StateSyntaxError"]
+__all__ = ["REAL_LABELS", "parse_state", "pretty_label", "StateSyntaxError"]
 
 _SHELL_L = {"s": 0, "p": 1, "d": 2, "f": 3}
 
@@ -249,3 +249,28 @@ def parse_state(text: str, Z: float = 1.0, reduced_mass_ratio: float = 1.0,
         return parts[0][1]
     label = text.strip() if len(parts) > 1 else parts[0][1].label
     return superpose(parts, time_au=time_au, label=label)
+
+
+_REAL_LABEL = re.compile(r"^(\d+)([spdf])(.*)$")
+_EIGEN_LABEL = re.compile(r"^(\d+),(\d+),(-?\d+)$")
+
+
+def pretty_label(label: str) -> str:
+    """A state label as typeset text (matplotlib mathtext): the Cartesian part of a real
+    orbital as a subscript with powers raised, |n l m> for an eigenstate; others unchanged.
+
+    Examples
+    --------
+    >>> pretty_label("3dx2-y2"), pretty_label("2pz"), pretty_label("3,2,-1")
+    ('3d$_{x^{2}-y^{2}}$', '2p$_{z}$', '$|3, 2, -1\\\\rangle$')
+    >>> pretty_label("1s"), pretty_label("1s@(0,0,-0.7) - 1s@(0,0,0.7)")
+    ('1s', '1s@(0,0,-0.7) - 1s@(0,0,0.7)')
+    """
+    mt = _REAL_LABEL.match(label)
+    if mt and mt[2] + mt[3] in REAL_LABELS and mt[3]:
+        sub = re.sub(r"(\d)", r"^{\1}", mt[3])
+        return f"{mt[1]}{mt[2]}$_{{{sub}}}$"
+    mt = _EIGEN_LABEL.match(label)
+    if mt:
+        return rf"$|{mt[1]}, {mt[2]}, {mt[3]}\rangle$"
+    return label
