@@ -33,6 +33,9 @@ _RENDER_BYTES_PER_SAMPLE = 48
 _RENDER_CUTAWAY_BYTES_PER_SAMPLE = 96
 # ... and per output pixel: the downsampled colour, sRGB conversion, RGBA image and the
 # matplotlib canvas of the composed figure (measured about 110 B at 400 x 300 px, ss = 1).
+# An opaque scene without cut, translucency or axis line is rendered band by band with
+# buffers of a few rows only: 46-68 B per output pixel measured at 800 x 600 px for
+# supersampling 2 to 4, so only this per-pixel term applies to it.
 _RENDER_BYTES_PER_PIXEL = 160
 _GIB = 2**30
 
@@ -90,16 +93,20 @@ def surface_bytes(shape: tuple[int, ...], dtype=np.complex64) -> int:
     return int(np.prod(shape, dtype=np.float64) * surface_bytes_per_point(dtype))
 
 
-def render_bytes(width_px: int, height_px: int, supersample: int = 3, cutaway: bool = False) -> int:
+def render_bytes(width_px: int, height_px: int, supersample: int = 3, cutaway: bool = False,
+                 banded: bool = False) -> int:
     """Peak bytes of one shaded render of `width_px` x `height_px` at `supersample`^2 samples
-    per pixel, composed into a figure (the surface mesh itself excluded).
+    per pixel, composed into a figure (the surface mesh itself excluded).  `banded`: the
+    renderer's band-by-band path (opaque, no cut, no translucency, no axis line).
 
     Examples
     --------
-    >>> round(render_bytes(900, 800, 3) / 2**20)
-    406
+    >>> round(render_bytes(900, 800, 3) / 2**20), round(render_bytes(900, 800, 3, banded=True) / 2**20)
+    (406, 110)
     """
     pixels = float(width_px) * float(height_px)
+    if banded and not cutaway:
+        return int(pixels * _RENDER_BYTES_PER_PIXEL)
     per_sample = _RENDER_CUTAWAY_BYTES_PER_SAMPLE if cutaway else _RENDER_BYTES_PER_SAMPLE
     return int(pixels * (supersample**2 * per_sample + _RENDER_BYTES_PER_PIXEL))
 
@@ -115,15 +122,15 @@ def require_surface_memory(shape: tuple[int, ...], dtype=np.complex64) -> None:
 
 
 def require_render_memory(width_px: int, height_px: int, supersample: int = 3,
-                          cutaway: bool = False) -> None:
+                          cutaway: bool = False, banded: bool = False) -> None:
     """Raise MemoryLimitError, naming the estimate and what would fit, if a render of this
-    size would not fit now."""
+    size would not fit now (see :func:`render_bytes` for `banded`)."""
     budget = _budget()
-    needed = render_bytes(width_px, height_px, supersample, cutaway)
+    needed = render_bytes(width_px, height_px, supersample, cutaway, banded)
     if needed <= budget:
         return
     fits = [k for k in range(supersample - 1, 0, -1)
-            if render_bytes(width_px, height_px, k, cutaway) <= budget]
+            if render_bytes(width_px, height_px, k, cutaway, banded) <= budget]
     scale = (budget / needed) ** 0.5
     hint = (f"supersampling {fits[0]} fits" if fits else
             f"about {int(width_px * scale)} x {int(height_px * scale)} px fits")
