@@ -926,7 +926,8 @@ def render_surfaces(surfaces: Surface | Sequence[Surface], width_px: int = 800, 
         raise ValueError(f"unknown phase map {phase_map!r}: use one of {', '.join(PHASE_SCHEMES)}")
     if translucent_outer is not None and not 0.0 < translucent_outer <= 1.0:
         raise ValueError(f"the opacity of outer shells must lie in (0, 1], got {translucent_outer}")
-    require_render_memory(width_px, height_px, ss, cutaway is not None)  # before any buffer
+    banded = cutaway is None and not nodal_axis and translucent_outer in (None, 1.0)
+    require_render_memory(width_px, height_px, ss, cutaway is not None, banded)  # before any buffer
     segment = _axis_segment(surfaces) if nodal_axis else None
     camera = frame_camera(surfaces, camera, width_px / height_px, segment)
     proj = _projection(camera, width_px * ss, height_px * ss)
