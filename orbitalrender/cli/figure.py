@@ -206,7 +206,8 @@ def run(args: argparse.Namespace) -> int:
         probe = fit_geometry(10 * _DEFAULT_PANEL_PX, _DEFAULT_PANEL_PX + 30, 1, 1, True, True, args.dpi)
         width = ncols * _DEFAULT_PANEL_PX + probe.legend_px
         height = nrows * (_DEFAULT_PANEL_PX + probe.title_px)
-    require_render_memory(width, height, args.supersample, cutaway is not None)  # before any work
+    banded = cutaway is None and not args.nodal_axis and args.translucent_outer in (None, 1.0)
+    require_render_memory(width, height, args.supersample, cutaway is not None, banded)  # before any work
     if args.nodal_axis and len(states) == 1:
         state_nodal_axis_centre(states[0])  # refuse before any work
     if out is None:
