@@ -28,21 +28,11 @@ import math
 import subprocess
 import sys
 import time
-from pathlib import Path
+
+from _proc import reset_peak, status_kib
 
 STATES = ((3, 2, 0), (4, 3, 1))
 METHODS = ("ours-complex64", "ours-complex128", "baseline")
-
-
-def _status_kib(field: str) -> int:
-    for line in Path("/proc/self/status").read_text().splitlines():
-        if line.startswith(field + ":"):
-            return int(line.split()[1])
-    raise RuntimeError(f"{field} not in /proc/self/status")
-
-
-def _reset_peak() -> None:
-    Path("/proc/self/clear_refs").write_text("5")
 
 
 def baseline(n: int, l: int, m: int, resolution: int, half_width_a0: float):
@@ -82,12 +72,12 @@ def run_case(method: str, n: int, l: int, m: int, resolution: int, repeats: int)
     cpu = wall = math.inf
     peak_extra = 0
     for _ in range(repeats):
-        _reset_peak()
-        before = _status_kib("VmRSS")
+        reset_peak()
+        before = status_kib("VmRSS")
         c0, w0 = time.process_time(), time.perf_counter()
         out = job(resolution)
         cpu, wall = min(cpu, time.process_time() - c0), min(wall, time.perf_counter() - w0)
-        peak_extra = max(peak_extra, (_status_kib("VmHWM") - before) * 1024)
+        peak_extra = max(peak_extra, (status_kib("VmHWM") - before) * 1024)
         out_bytes = out.nbytes
         del out
     return {"cpu_seconds": cpu, "wall_seconds": wall, "peak_bytes": peak_extra, "output_bytes": out_bytes}

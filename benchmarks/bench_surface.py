@@ -38,7 +38,8 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 
-from bench_sampling import _reset_peak, _status_kib, baseline  # noqa: E402
+from _proc import reset_peak, status_kib  # noqa: E402
+from bench_sampling import baseline  # noqa: E402
 
 STATES = ((3, 2, 0), (4, 3, 1))
 METHODS = ("ours", "baseline")
@@ -98,12 +99,12 @@ def run_case(method: str, n: int, l: int, m: int, resolution: int, fraction: flo
         return baseline_surface(n, l, m, res, half, fraction)
 
     job(24)  # warm-up: imports, compiled code and caches outside the measurement
-    _reset_peak()
-    before = _status_kib("VmRSS")
+    reset_peak()
+    before = status_kib("VmRSS")
     c0, w0 = time.process_time(), time.perf_counter()
     level, verts, faces, psi = job(resolution)
     cpu, wall = time.process_time() - c0, time.perf_counter() - w0
-    peak = (_status_kib("VmHWM") - before) * 1024
+    peak = (status_kib("VmHWM") - before) * 1024
     faces = np.asarray(faces, dtype=np.int64)
     surf = Surface(np.asarray(verts, float), faces, np.zeros_like(verts, dtype=float), psi, level,
                    fraction, None, None, (resolution,) * 3, (1.0, 1.0, 1.0))

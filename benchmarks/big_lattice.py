@@ -15,6 +15,7 @@ import sys
 import time
 
 import numpy as np
+from _proc import reset_peak, status_kib
 
 from orbitalrender.lattice.memory import sampling_bytes, surface_bytes_per_point
 from orbitalrender.lattice.sampler import sample
@@ -25,37 +26,18 @@ from orbitalrender.surface.level import level_for_fraction
 _MIB = 2**20
 
 
-def _status_kib(key: str) -> int:
-    """A memory figure (kiB) from /proc/self/status, e.g. VmHWM (peak RSS) or VmRSS."""
-    with open("/proc/self/status", encoding="ascii") as fh:
-        for line in fh:
-            if line.startswith(key + ":"):
-                return int(line.split()[1])
-    raise KeyError(key)
-
-
-def _reset_peak() -> bool:
-    """Reset VmHWM to the current RSS (Linux >= 4.0: write 5 to clear_refs); False if refused."""
-    try:
-        with open("/proc/self/clear_refs", "w", encoding="ascii") as fh:
-            fh.write("5")
-        return True
-    except OSError:
-        return False
-
-
 def main(resolution: int = 512, text: str = "4,3,1", fraction: float = 0.9) -> None:
     state = parse_state(text)
     dtype = np.complex64
     points = resolution**3
     print(f"state {text}, {resolution}^3 {np.dtype(dtype).name} lattice, F = {fraction:g}")
-    print(f"baseline RSS {_status_kib('VmRSS') / 1024:.0f} MiB")
+    print(f"baseline RSS {status_kib('VmRSS') / 1024:.0f} MiB")
 
-    rss0 = _status_kib("VmRSS") * 1024
+    rss0 = status_kib("VmRSS") * 1024
     t0 = time.perf_counter()
     lattice = sample(state, resolution, dtype=dtype)
     t_sample = time.perf_counter() - t0
-    hwm = _status_kib("VmHWM") * 1024
+    hwm = status_kib("VmHWM") * 1024
     estimate = sampling_bytes(resolution, dtype)
     print(f"sample:  {t_sample:7.1f} s   peak RSS {hwm / _MIB:7.0f} MiB   "
           f"growth {(hwm - rss0) / _MIB:6.0f} MiB, estimate {estimate / _MIB:6.0f} MiB")
@@ -65,12 +47,12 @@ def main(resolution: int = 512, text: str = "4,3,1", fraction: float = 0.9) -> N
     t_level = time.perf_counter() - t0
     print(f"level:   {t_level:7.1f} s   (method {level.method}, enclosed {level.fraction_enclosed:.6f})")
 
-    reset = _reset_peak()
-    rss1 = _status_kib("VmRSS") * 1024
+    reset = reset_peak()
+    rss1 = status_kib("VmRSS") * 1024
     t0 = time.perf_counter()
     surface = surface_at_level(lattice, level)
     t_surface = time.perf_counter() - t0
-    hwm = _status_kib("VmHWM") * 1024
+    hwm = status_kib("VmHWM") * 1024
     growth = hwm - rss1 if reset else float("nan")
     print(f"surface: {t_surface:7.1f} s   peak RSS {hwm / _MIB:7.0f} MiB   "
           f"growth {growth / _MIB:6.0f} MiB = {growth / points:.1f} B/point, "

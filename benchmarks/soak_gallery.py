@@ -24,6 +24,7 @@ import tomllib
 from pathlib import Path
 
 import matplotlib.pyplot as plt
+from _proc import status_kib
 
 from orbitalrender.gallery.cache import DiskCache, evict
 from orbitalrender.gallery.config import parse_config
@@ -34,14 +35,6 @@ _STATES = ["1s", "2s", "2pz", "2px", "2,1,1", "3s", "3pz", "3dz2", "3dxy", "3,2,
            "4s", "4pz", "4dz2", "4fz3", "4,3,1", "4fxyz", "5s", "5,4,2", "0.6*2,1,1 + 0.8*2,1,-1",
            "2s + 2pz", "3dz2 + 3s", "real(4,3,-2)", "5dz2"]
 _KINDS = ["figure", "section", "mesh", "radial", "layout"]
-
-
-def _status_kib(key: str) -> int:
-    with open("/proc/self/status", encoding="ascii") as fh:
-        for line in fh:
-            if line.startswith(key + ":"):
-                return int(line.split()[1])
-    raise KeyError(key)
 
 
 def _config_text(count: int) -> str:
@@ -81,7 +74,7 @@ def main(count: int = 50, cache_limit_mib: float = 64.0) -> None:
         cache = DiskCache(Path(scratch) / "cache", limit)
         cache.folder.mkdir()
         print(f"{count} outputs, cache bound {cache_limit_mib:g} MiB; start RSS "
-              f"{_status_kib('VmRSS') / 1024:.0f} MiB")
+              f"{status_kib('VmRSS') / 1024:.0f} MiB")
         print(" done  seconds   RSS MiB  peak MiB  cache MiB  figures  failed")
         t0 = time.perf_counter()
         failed = 0
@@ -96,9 +89,9 @@ def main(count: int = 50, cache_limit_mib: float = 64.0) -> None:
             evict(cache)
             if i % 10 == 0 or i == count:
                 gc.collect()
-                rss = _status_kib("VmRSS") / 1024
+                rss = status_kib("VmRSS") / 1024
                 rss_at.append(rss)
-                print(f"{i:5d} {time.perf_counter() - t0:9.1f} {rss:9.0f} {_status_kib('VmHWM') / 1024:9.0f} "
+                print(f"{i:5d} {time.perf_counter() - t0:9.1f} {rss:9.0f} {status_kib('VmHWM') / 1024:9.0f} "
                       f"{_folder_bytes(cache.folder) / _MIB:10.1f} {len(plt.get_fignums()):8d} {failed:7d}")
         steps = [b - a for a, b in zip(rss_at, rss_at[1:])]
         print(f"RSS change per 10 outputs after the first 10: {', '.join(f'{s:+.0f}' for s in steps)} MiB")

@@ -422,6 +422,8 @@ def extract_surface(source: State | Lattice, fraction: float, resolution: int = 
         if box is not None:
             raise ValueError("a box can only be given with a state; a lattice has its own")
         lattice = source
+        # the level of a user field works on a full-size density too: refuse before it
+        require_surface_memory(lattice.shape, lattice.values.dtype)
     else:
         raise TypeError(f"expected a State or a Lattice, got {type(source).__name__}")
     return surface_at_level(lattice, level_for_fraction(lattice, fraction))
