@@ -376,3 +376,15 @@ def test_bad_combination_is_one_line_and_status_2(command, state, extra, fragmen
     monkeypatch.chdir(tmp_path)
     status, _, err = run_cli(_with_state(command, tmp_path, state, extra), capsys)
     assert_one_line_error(status, err, fragment)
+
+
+def test_a_reader_that_goes_away_is_no_error():
+    # `orbitalrender describe ... | head -1`: the pipe closes before the output is written;
+    # status 141 (128 + SIGPIPE, the shell's convention) and nothing on stderr
+    proc = subprocess.Popen([sys.executable, "-m", "orbitalrender", "describe", "3dz2"],
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE)
+    proc.stdout.close()
+    err = proc.stderr.read().decode()
+    proc.wait(timeout=120)
+    assert proc.returncode in (0, 141), err
+    assert err == ""

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import argparse
 import importlib
+import os
 import sys
 import traceback
 
@@ -57,7 +58,14 @@ def main(argv: list[str] | None = None) -> int:
     parser = build_parser()
     args = parser.parse_args(argv)
     try:
-        return int(args.run(args) or 0)
+        status = int(args.run(args) or 0)
+        sys.stdout.flush()  # inside the try, so a reader that went away is handled below
+        return status
+    except BrokenPipeError:
+        # the reader of our output went away (``| head``): stop quietly, as a process that
+        # a SIGPIPE ends would (status 128 + 13); further writes to stdout go nowhere
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        return 141
     except _USER_ERRORS as exc:
         print(f"orbitalrender {args.command}: error: {exc}", file=sys.stderr)
         if args.debug:
