@@ -16,10 +16,15 @@ import numpy as np
 
 from ..errors import UserInputError
 from ..lattice.grid import Lattice
-from ..lattice.userfield import load_field
 from ..state.model import State
 from ..state.properties import state_properties
-from .common import add_lattice_arguments, add_state_arguments, state_from_args
+from .common import (
+    add_field_arguments,
+    add_lattice_arguments,
+    add_state_arguments,
+    field_from_args,
+    state_from_args,
+)
 
 __all__ = ["describe_state", "describe_field", "describe_surface", "format_report", "register", "run"]
 
@@ -158,12 +163,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
         description="Print the derived quantities of STATE (energy, nodes, <r>, <r^2>, <1/r>, "
                     "most probable radius, radius holding 90 %%), or a summary of a field file.")
     add_state_arguments(p, optional=True)
-    p.add_argument("--field", metavar="FILE", default=None,
-                   help="describe psi stored in an .npy/.npz file instead of a STATE")
-    p.add_argument("--spacing-a0", type=float, default=None,
-                   help="grid step of an .npy field in a0 (an .npz file carries its own)")
-    p.add_argument("--origin-a0", type=float, nargs=3, default=None, metavar=("X", "Y", "Z"),
-                   help="coordinates of the first grid point of an .npy field (default: centred)")
+    add_field_arguments(p, "describe")
     p.add_argument("--json", action="store_true", help="print one JSON object instead of text")
     p.add_argument("--fraction", type=float, default=None, metavar="F",
                    help="also extract the surface enclosing probability F (0 < F < 1) and report "
@@ -177,7 +177,7 @@ def run(args: argparse.Namespace) -> int:
     if (args.field is None) == (args.state is None):
         raise UserInputError("give either a STATE or --field FILE")
     if args.field is not None:
-        lattice = load_field(args.field, args.spacing_a0, args.origin_a0)
+        lattice = field_from_args(args)
         report = describe_field(lattice, args.field)
         source = lattice
     else:
