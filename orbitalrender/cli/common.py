@@ -4,12 +4,14 @@ from __future__ import annotations
 
 import argparse
 
+from ..lattice.grid import Box
+from ..lattice.sampler import PRECISIONS, default_box
 from ..state.model import State
 from ..state.notation import parse_state
 from ..state.units import femtoseconds_to_au, nucleus_reduced_mass_ratio
 
 __all__ = ["add_state_arguments", "state_from_args", "add_lattice_arguments", "add_field_arguments",
-           "field_from_args", "add_picture_arguments"]
+           "field_from_args", "add_picture_arguments", "lattice_dtype", "box_from_args"]
 
 
 def add_state_arguments(parser: argparse.ArgumentParser, many: bool = False,
@@ -44,8 +46,18 @@ def add_lattice_arguments(parser: argparse.ArgumentParser, default_resolution: i
                         help=f"lattice points per axis (default {default_resolution})")
     parser.add_argument("--box", type=float, default=None, metavar="HALF_WIDTH_A0",
                         help="half-width of the lattice cube in a0 (default: from the state)")
-    parser.add_argument("--precision", choices=("single", "double"), default="single",
+    parser.add_argument("--precision", choices=tuple(PRECISIONS), default="single",
                         help="complex64 or complex128 lattice values (default single)")
+
+
+def lattice_dtype(args: argparse.Namespace):
+    """The numpy dtype that --precision names."""
+    return PRECISIONS[args.precision]
+
+
+def box_from_args(args: argparse.Namespace, state: State) -> Box | None:
+    """The cube that --box asks for (half-width about the middle of the state's centres), or None."""
+    return Box(default_box(state).centre_a0, args.box) if args.box is not None else None
 
 
 def add_field_arguments(parser: argparse.ArgumentParser, what: str = "use") -> None:

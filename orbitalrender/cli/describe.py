@@ -23,6 +23,7 @@ from .common import (
     add_lattice_arguments,
     add_state_arguments,
     field_from_args,
+    lattice_dtype,
     state_from_args,
 )
 
@@ -186,7 +187,7 @@ def run(args: argparse.Namespace) -> int:
     if args.fraction is not None:
         if args.field is not None and (args.box is not None or args.resolution != 128):
             raise UserInputError("--box and --resolution apply to a STATE; a field has its own grid")
-        dtype = np.complex128 if args.precision == "double" else np.complex64
+        dtype = lattice_dtype(args)
         report.update(describe_surface(source, args.fraction, args.resolution, args.box, dtype))
     print(json.dumps(_finite_json(report)) if args.json else format_report(report))
     return 0

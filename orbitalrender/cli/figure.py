@@ -19,9 +19,7 @@ import numpy as np
 
 from ..atomic import check_writable
 from ..errors import UserInputError
-from ..lattice.grid import Box
 from ..lattice.memory import require_lattice_memory, require_render_memory, surface_bytes_per_point
-from ..lattice.sampler import default_box
 from ..picture.colormap import PHASE_SCHEMES
 from ..picture.layout import default_columns, shell_states, small_multiples, time_strip
 from ..picture.output import default_output_path, figure_format, figure_metadata, save_figure, write_report
@@ -35,7 +33,7 @@ from ..picture.render3d import (
     surface_title,
 )
 from ..state.units import LENGTH_UNITS_PER_A0, femtoseconds_to_au, nucleus_reduced_mass_ratio
-from .common import add_lattice_arguments, add_state_arguments, state_from_args
+from .common import add_lattice_arguments, add_state_arguments, box_from_args, lattice_dtype, state_from_args
 
 __all__ = ["register", "run", "parse_size"]
 
@@ -169,7 +167,7 @@ def _check_options(args: argparse.Namespace):
         check_writable(out)
     if args.report:
         check_writable(args.report)
-    dtype = np.complex64 if args.precision == "single" else np.complex128
+    dtype = lattice_dtype(args)
     require_lattice_memory(args.resolution, dtype, extra_bytes_per_point=surface_bytes_per_point(dtype),
                            what="lattice with its surface")
     return size, camera, cutaway, times, out
@@ -178,8 +176,8 @@ def _check_options(args: argparse.Namespace):
 def _surface(state, args: argparse.Namespace):
     from ..surface.extract import extract_surface  # the surface step
 
-    box = Box(default_box(state).centre_a0, args.box) if args.box is not None else None
-    dtype = np.complex64 if args.precision == "single" else np.complex128
+    box = box_from_args(args, state)
+    dtype = lattice_dtype(args)
     return extract_surface(state, args.fraction, args.resolution, box, dtype)
 
 
@@ -225,7 +223,7 @@ def run(args: argparse.Namespace) -> int:
             "phase_map": args.phase_map, "size_px": [width, height], "dpi": args.dpi}
     if times is not None:
         state = states[0]
-        box = Box(default_box(state).centre_a0, args.box) if args.box is not None else None
+        box = box_from_args(args, state)
         labels = [f"t = {t} {args.time_unit}" for t in args.times.split(",") if t.strip()]
         fig, renders = time_strip(state, times, args.fraction, args.resolution, box, labels,
                                   width_px=width, height_px=height, **common, **render_options)

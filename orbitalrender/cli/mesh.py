@@ -18,9 +18,7 @@ import numpy as np
 
 from ..atomic import check_writable
 from ..errors import UserInputError
-from ..lattice.grid import Box
 from ..lattice.memory import require_lattice_memory, surface_bytes_per_point
-from ..lattice.sampler import default_box
 from ..mesh.export import length_scale, mesh_suffix
 from ..mesh.pipeline import export_mesh
 from ..mesh.printable import (
@@ -33,7 +31,7 @@ from ..mesh.printable import (
 from ..picture.colormap import PHASE_SCHEMES
 from ..picture.output import write_report
 from ..state.units import LENGTH_UNITS_PER_A0
-from .common import add_lattice_arguments, add_state_arguments, state_from_args
+from .common import add_lattice_arguments, add_state_arguments, box_from_args, lattice_dtype, state_from_args
 
 __all__ = ["register", "run"]
 
@@ -99,7 +97,7 @@ def _check_options(args: argparse.Namespace) -> tuple[Path, str]:
                              "with --printable or --parts")
     if args.cutaway and not args.printable:
         raise UserInputError("--cutaway is part of --printable")
-    dtype = np.complex64 if args.precision == "single" else np.complex128
+    dtype = lattice_dtype(args)
     require_lattice_memory(args.resolution, dtype, extra_bytes_per_point=surface_bytes_per_point(dtype),
                            what="lattice with its surface")
     return out, suffix
@@ -118,8 +116,8 @@ def run(args: argparse.Namespace) -> int:
     from ..surface.extract import sample_for_surface, surface_at_level  # the surface step
     from ..surface.level import level_for_fraction
 
-    box = Box(default_box(state).centre_a0, args.box) if args.box is not None else None
-    dtype = np.complex64 if args.precision == "single" else np.complex128
+    box = box_from_args(args, state)
+    dtype = lattice_dtype(args)
     level = level_for_fraction(state, args.fraction)
     lattice = sample_for_surface(state, level, args.resolution, box, dtype)
     surface = surface_at_level(lattice, level)

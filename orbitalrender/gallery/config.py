@@ -28,6 +28,7 @@ from typing import Any
 
 from ..cli.radial import parse_quantities
 from ..errors import UserInputError
+from ..lattice.sampler import PRECISIONS
 from ..mesh.printable import BASES
 from ..picture.colormap import PHASE_SCHEMES
 from ..picture.layout import shell_states
@@ -266,7 +267,7 @@ SCHEMA: dict[str, Key] = {k.name: k for k in [
     _K("fraction", _ALL, _number(0, 1, True, True), _range_text("number", 0, 1, True, True)),
     _K("resolution", _SURFACES, _lattice_resolution, _range_text("integer", 8, 1024)),
     _K("box_a0", _SURFACES, _number(0, lo_open=True), _range_text("number", 0, None, lo_open=True)),
-    _K("precision", _SURFACES, _choice(("single", "double")), _choice_text(("single", "double"))),
+    _K("precision", _SURFACES, _choice(tuple(PRECISIONS)), _choice_text(tuple(PRECISIONS))),
     # pictures
     _K("phase_map", ("figure", "layout", "section", "mesh"), _choice(PHASE_SCHEMES),
        _choice_text(PHASE_SCHEMES)),

@@ -20,12 +20,10 @@ from functools import cache
 from pathlib import Path
 from typing import Any
 
-import numpy as np
-
 from ..errors import UserInputError
 from ..lattice.grid import Box, Lattice
 from ..lattice.memory import MemoryLimitError
-from ..lattice.sampler import default_box
+from ..lattice.sampler import PRECISIONS, default_box
 from ..state.model import State
 from ..surface.level import LevelResult
 from ..surface.model import Surface
@@ -39,7 +37,6 @@ __all__ = ["Caps", "Request", "OutputRecord", "requests_for", "make_request", "m
 THUMBNAIL_PX = 320
 #: Folder (inside the output folder) for the index page's thumbnails.
 INDEX_FOLDER = ".index"
-_DTYPES = {"single": np.complex64, "double": np.complex128}
 _USER_ERRORS = (UserInputError, ValueError, MemoryLimitError, FileNotFoundError, PermissionError)
 
 
@@ -110,10 +107,10 @@ def _surface_request(spec: OutputSpec, state: State | None, caps: Caps) -> Reque
     precision = option(spec, "precision")
     if state is None:
         desc = _field_description(spec)
-        key = surface_key(_field_parts(desc), fraction, resolution, box, _DTYPES[precision])
+        key = surface_key(_field_parts(desc), fraction, resolution, box, PRECISIONS[precision])
         return Request("surface", key, None, fraction, resolution, box, precision, desc)
     rule = "lattice" if caps.resolution else "quadrature"
-    key = surface_key(state, fraction, resolution, box, _DTYPES[precision], rule)
+    key = surface_key(state, fraction, resolution, box, PRECISIONS[precision], rule)
     return Request("surface", key, state, fraction, resolution, box, precision, level_rule=rule)
 
 
@@ -156,7 +153,7 @@ def _level(req: Request, cache: DiskCache, stats: CacheStats, lattice: Lattice |
 def _surface(req: Request, cache: DiskCache, stats: CacheStats) -> Surface:
     from ..surface.extract import surface_at_level, surface_box
 
-    dtype = _DTYPES[req.precision]
+    dtype = PRECISIONS[req.precision]
     if req.state is None:
         def compute() -> Surface:
             lattice = _load_user_field(req.field)

@@ -32,8 +32,10 @@ from ..state.radial import radius_holding
 from .grid import Box, Lattice
 from .memory import require_lattice_memory
 
-__all__ = ["default_box", "sample", "check_resolution", "BOX_FRACTION", "BOX_PADDING"]
+__all__ = ["default_box", "sample", "check_resolution", "PRECISIONS", "BOX_FRACTION", "BOX_PADDING"]
 
+#: Lattice value types by name (the --precision option and the gallery key).
+PRECISIONS = {"single": np.complex64, "double": np.complex128}
 #: The default box holds all but this much of each term's radial probability.
 BOX_FRACTION = 1.0 - 1e-4
 #: ... and is then widened by this factor, so surfaces up to F = 0.999 close inside it.
