@@ -365,11 +365,6 @@ def option(spec: OutputSpec, key: str) -> Any:
     return None
 
 
-def _given(options: dict, names: dict[str, str]) -> dict[str, Any]:
-    """{parameter: value} for the config keys in `names` ({key: parameter}) that are set."""
-    return {param: options[key] for key, param in names.items() if key in options}
-
-
 def _render_options(work: _Work) -> dict[str, Any]:
     from ..picture.render3d import Camera, parse_cutaway
 
