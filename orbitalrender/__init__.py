@@ -19,39 +19,50 @@ Examples
 
 __version__ = "0.1.0"
 
-from .gallery.config import load_config
-from .gallery.runner import run_gallery
-from .lattice.grid import Box, Lattice
-from .lattice.sampler import default_box, sample
-from .lattice.userfield import load_field, save_field
-from .mesh.export import length_scale, surface_mesh, write_bodies
-from .mesh.pipeline import export_mesh
-from .mesh.printable import PrintOptions, make_printable, split_by_sign, thin_spots
-from .picture.layout import shell_states, small_multiples, time_strip
-from .picture.output import figure_metadata, save_figure, write_report
-from .picture.radialplot import radial_figure, radial_marks
-from .picture.render3d import Camera, figure_3d, render_surfaces
-from .picture.section import cross_section, plane, section_figure
-from .state.model import State, Term, eigenstate, energy_hartree, real_orbital, superpose
-from .state.notation import parse_state
-from .state.properties import EigenProperties, SuperpositionProperties, eigen_properties, state_properties
-from .surface.extract import extract_surface
-from .surface.level import LevelResult, level_for_fraction
-from .surface.model import Surface
-from .surface.topology import Topology, split_components, topology
+#: Public name -> the module (below this package) that defines it.  The modules are
+#: imported on first use (PEP 562), so ``import orbitalrender`` and the command line's
+#: ``--help`` load no heavy library.
+_WHERE: dict[str, str] = {
+    **dict.fromkeys(("State", "Term", "eigenstate", "real_orbital", "superpose", "energy_hartree"),
+                    "state.model"),
+    "parse_state": "state.notation",
+    **dict.fromkeys(("EigenProperties", "SuperpositionProperties", "eigen_properties",
+                     "state_properties"), "state.properties"),
+    **dict.fromkeys(("Box", "Lattice"), "lattice.grid"),
+    **dict.fromkeys(("default_box", "sample"), "lattice.sampler"),
+    **dict.fromkeys(("load_field", "save_field"), "lattice.userfield"),
+    "Surface": "surface.model",
+    **dict.fromkeys(("LevelResult", "level_for_fraction"), "surface.level"),
+    "extract_surface": "surface.extract",
+    **dict.fromkeys(("Topology", "topology", "split_components"), "surface.topology"),
+    "export_mesh": "mesh.pipeline",
+    **dict.fromkeys(("length_scale", "surface_mesh", "write_bodies"), "mesh.export"),
+    **dict.fromkeys(("PrintOptions", "make_printable", "split_by_sign", "thin_spots"), "mesh.printable"),
+    **dict.fromkeys(("figure_metadata", "save_figure", "write_report"), "picture.output"),
+    **dict.fromkeys(("plane", "cross_section", "section_figure"), "picture.section"),
+    **dict.fromkeys(("radial_figure", "radial_marks"), "picture.radialplot"),
+    **dict.fromkeys(("Camera", "render_surfaces", "figure_3d"), "picture.render3d"),
+    **dict.fromkeys(("small_multiples", "time_strip", "shell_states"), "picture.layout"),
+    **dict.fromkeys(("FigureOptions", "LayoutOptions", "SectionOptions", "RadialOptions", "MeshOptions",
+                     "DescribeOptions", "figure_job", "section_job", "radial_job", "mesh_job",
+                     "describe_job"), "jobs"),
+    "load_config": "gallery.config",
+    "run_gallery": "gallery.runner",
+}
 
-__all__ = [
-    "__version__",
-    "State", "Term", "eigenstate", "real_orbital", "superpose", "energy_hartree", "parse_state",
-    "EigenProperties", "SuperpositionProperties", "eigen_properties", "state_properties",
-    "Box", "Lattice", "default_box", "sample", "load_field", "save_field",
-    "Surface", "LevelResult", "level_for_fraction", "extract_surface",
-    "Topology", "topology", "split_components",
-    "export_mesh", "length_scale", "surface_mesh", "write_bodies", "PrintOptions", "make_printable",
-    "split_by_sign",
-    "thin_spots",
-    "figure_metadata", "save_figure", "write_report",
-    "plane", "cross_section", "section_figure", "radial_figure", "radial_marks",
-    "Camera", "render_surfaces", "figure_3d", "small_multiples", "time_strip", "shell_states",
-    "load_config", "run_gallery",
-]
+__all__ = ["__version__", *_WHERE]
+
+
+def __getattr__(name: str):
+    """Import the module that defines public `name` on first use (PEP 562)."""
+    if name not in _WHERE:
+        raise AttributeError(f"module 'orbitalrender' has no attribute {name!r}")
+    import importlib
+
+    value = getattr(importlib.import_module(f".{_WHERE[name]}", __name__), name)
+    globals()[name] = value  # later lookups do not come here again
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted(set(globals()) | set(__all__))

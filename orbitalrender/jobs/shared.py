@@ -13,11 +13,10 @@ from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Any
 
-from ..state.units import LENGTH_UNITS_PER_A0, NUCLEUS_PRESETS
 from .option import option
 
 __all__ = ["StateOptions", "FieldOptions", "LatticeOptions", "PictureOptions", "FileOptions",
-           "FRACTION", "FRACTION_HELP", "LENGTH_UNITS", "PRECISION_NAMES", "PHASE_MAPS", "DPI_RANGE", "lazy",
+           "FRACTION", "FRACTION_HELP", "LENGTH_UNITS", "NUCLEUS_NAMES", "PRECISION_NAMES", "PHASE_MAPS", "DPI_RANGE", "lazy",
            "parse_states", "box_of", "dtype_of", "surface_of"]
 
 #: The probability enclosed by surfaces, marked on radial plots and cut by sections when
@@ -26,8 +25,12 @@ FRACTION = 0.9
 FRACTION_HELP = "probability enclosed by the surface, between 0 and 1"
 #: Names of the lattice precisions (``lattice.sampler.PRECISIONS`` holds their dtypes).
 PRECISION_NAMES = ("single", "double")
-#: Length units of axes, scale bars and mesh coordinates.
-LENGTH_UNITS = tuple(LENGTH_UNITS_PER_A0)
+#: Length units of axes, scale bars and mesh coordinates: the keys of
+#: ``state.units.LENGTH_UNITS_PER_A0`` (written out so that defining options does not load
+#: scipy.constants; tests/test_jobs.py checks that the two agree).
+LENGTH_UNITS = ("a0", "angstrom", "nm", "pm")
+#: Nucleus presets: the keys of ``state.units.NUCLEUS_NAMES`` (checked likewise).
+NUCLEUS_NAMES = ("infinite", "hydrogen", "deuterium", "positronium", "muonic-hydrogen")
 #: Phase colour maps (``picture.colormap.PHASE_SCHEMES``).
 PHASE_MAPS = ("uniform", "cvd", "sign")
 #: Dots per inch accepted for pictures (``picture.output.DPI_RANGE``).
@@ -57,9 +60,9 @@ class StateOptions:
 
     Z: float = option(1.0, "nuclear charge", lo=0, hi=200, lo_open=True, flag="--Z")
     nucleus: Any = option(
-        "infinite", f"{', '.join(NUCLEUS_PRESETS)}, or a nucleus-to-electron mass ratio",
+        "infinite", f"{', '.join(NUCLEUS_NAMES)}, or a nucleus-to-electron mass ratio",
         type="value", check=_nucleus,
-        expected=f"a nucleus preset ({', '.join(NUCLEUS_PRESETS)}) or a nucleus-to-electron mass ratio")
+        expected=f"a nucleus preset ({', '.join(NUCLEUS_NAMES)}) or a nucleus-to-electron mass ratio")
     time: float = option(0.0, "time at which a superposition is drawn (unit: time unit)")
     time_unit: str = option("au", "unit of the time: atomic units (hbar/E_h) or femtoseconds",
                             type="text", choices=("au", "fs"))
