@@ -111,7 +111,7 @@ class LayoutOptions(FigureOptions):
     #: Options a gallery layout does not take (its panels are STATEs; one field is a figure).
     NOT_IN_GALLERY: ClassVar[tuple[str, ...]] = ("field", "field_spacing_a0", "field_origin_a0")
     shell: int | None = option(None, "one panel per state of shell N (instead of STATE)", type="integer",
-                               lo=1, hi=6, metavar="N")
+                               lo=1, hi=7, metavar="N")
     basis: str = option("real", "with a shell: real orbitals or complex |n l m>", type="text",
                         choices=("real", "complex"))
     columns: int | None = option(None, "panels per row (default: near square)", type="integer",

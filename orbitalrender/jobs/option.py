@@ -110,7 +110,7 @@ def option(default: Any, help: str, **kw: Any) -> Any:
     ... class Demo:
     ...     fraction: float = option(0.9, "probability enclosed", lo=0, hi=1, lo_open=True,
     ...                              hi_open=True)
-    >>> build(Demo, {"fraction": "0.5"}).fraction
+    >>> build(Demo, {"fraction": "0.5"}, text=True).fraction
     0.5
     """
     if kw.get("type", "number") not in TYPES:
