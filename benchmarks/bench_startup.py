@@ -37,7 +37,7 @@ def _seconds(argv: list[str]) -> float:
 
 def main(rounds: int = ROUNDS) -> dict[str, float]:
     times: dict[str, list[float]] = {name: [] for name in COMMANDS}
-    for name, argv in COMMANDS.items():  # one warm-up run each (file cache, .pyc files)
+    for argv in COMMANDS.values():  # one warm-up run each (file cache, .pyc files)
         _seconds(argv)
     for _ in range(rounds):
         for name, argv in COMMANDS.items():

@@ -19,50 +19,74 @@ Examples
 
 __version__ = "0.1.0"
 
+import importlib
+
 #: Public name -> the module (below this package) that defines it.  The modules are
-#: imported on first use (PEP 562), so ``import orbitalrender`` and the command line's
-#: ``--help`` load no heavy library.
-_WHERE: dict[str, str] = {
-    **dict.fromkeys(("State", "Term", "eigenstate", "real_orbital", "superpose", "energy_hartree"),
-                    "state.model"),
-    "parse_state": "state.notation",
-    **dict.fromkeys(("EigenProperties", "SuperpositionProperties", "eigen_properties",
-                     "state_properties"), "state.properties"),
-    **dict.fromkeys(("Box", "Lattice"), "lattice.grid"),
-    **dict.fromkeys(("default_box", "sample"), "lattice.sampler"),
-    **dict.fromkeys(("load_field", "save_field"), "lattice.userfield"),
-    "Surface": "surface.model",
-    **dict.fromkeys(("LevelResult", "level_for_fraction"), "surface.level"),
-    "extract_surface": "surface.extract",
-    **dict.fromkeys(("Topology", "topology", "split_components"), "surface.topology"),
+#: imported on first use (PEP 562), so ``import orbitalrender`` and the light modules
+#: that option definitions read load no heavy library.
+_EXPORTS: dict[str, str] = {
+    "load_config": "gallery.config",
+    "run_gallery": "gallery.runner",
+    "Box": "lattice.grid", "Lattice": "lattice.grid",
+    "default_box": "lattice.sampler", "sample": "lattice.sampler",
+    "load_field": "lattice.userfield", "save_field": "lattice.userfield",
+    "length_scale": "mesh.export", "surface_mesh": "mesh.export", "write_bodies": "mesh.export",
     "export_mesh": "mesh.pipeline",
-    **dict.fromkeys(("length_scale", "surface_mesh", "write_bodies"), "mesh.export"),
-    **dict.fromkeys(("PrintOptions", "make_printable", "split_by_sign", "thin_spots"), "mesh.printable"),
-    **dict.fromkeys(("figure_metadata", "save_figure", "write_report"), "picture.output"),
-    **dict.fromkeys(("plane", "cross_section", "section_figure"), "picture.section"),
-    **dict.fromkeys(("radial_figure", "radial_marks"), "picture.radialplot"),
-    **dict.fromkeys(("Camera", "render_surfaces", "figure_3d"), "picture.render3d"),
-    **dict.fromkeys(("small_multiples", "time_strip", "shell_states"), "picture.layout"),
+    "PrintOptions": "mesh.print_options",
+    "make_printable": "mesh.printable", "thin_spots": "mesh.printable",
+    "split_by_sign": "mesh.split",
+    "shell_states": "picture.layout", "small_multiples": "picture.layout", "time_strip": "picture.layout",
+    "figure_metadata": "picture.output", "save_figure": "picture.output", "write_report": "picture.output",
+    "radial_figure": "picture.radialplot", "radial_marks": "picture.radialplot",
+    "Camera": "picture.camera",
+    "figure_3d": "picture.compose",
+    "render_surfaces": "picture.scene",
+    "plane": "picture.plane",
+    "cross_section": "picture.section",
+    "section_lines": "picture.nodal",
+    "section_figure": "picture.section_figure",
+    "State": "state.model", "Term": "state.model", "eigenstate": "state.model",
+    "energy_hartree": "state.model", "real_orbital": "state.model", "superpose": "state.model",
+    "parse_state": "state.notation",
+    "EigenProperties": "state.properties", "SuperpositionProperties": "state.properties",
+    "eigen_properties": "state.properties", "state_properties": "state.properties",
+    "extract_surface": "surface.extract",
+    "LevelResult": "surface.level", "level_for_fraction": "surface.level",
+    "Surface": "surface.model",
+    "Topology": "surface.topology", "split_components": "surface.topology", "topology": "surface.topology",
     **dict.fromkeys(("FigureOptions", "LayoutOptions", "SectionOptions", "RadialOptions", "MeshOptions",
                      "DescribeOptions", "figure_job", "section_job", "radial_job", "mesh_job",
                      "describe_job"), "jobs"),
-    "load_config": "gallery.config",
-    "run_gallery": "gallery.runner",
 }
-
-__all__ = ["__version__", *_WHERE]
 
 
 def __getattr__(name: str):
-    """Import the module that defines public `name` on first use (PEP 562)."""
-    if name not in _WHERE:
-        raise AttributeError(f"module 'orbitalrender' has no attribute {name!r}")
-    import importlib
-
-    value = getattr(importlib.import_module(f".{_WHERE[name]}", __name__), name)
-    globals()[name] = value  # later lookups do not come here again
+    module = _EXPORTS.get(name)
+    if module is None:
+        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+    value = getattr(importlib.import_module(f".{module}", __name__), name)
+    globals()[name] = value  # later look-ups skip this function
     return value
 
 
 def __dir__() -> list[str]:
-    return sorted(set(globals()) | set(__all__))
+    return sorted(set(globals()) | set(_EXPORTS))
+
+
+__all__ = [
+    "__version__",
+    "State", "Term", "eigenstate", "real_orbital", "superpose", "energy_hartree", "parse_state",
+    "EigenProperties", "SuperpositionProperties", "eigen_properties", "state_properties",
+    "Box", "Lattice", "default_box", "sample", "load_field", "save_field",
+    "Surface", "LevelResult", "level_for_fraction", "extract_surface",
+    "Topology", "topology", "split_components",
+    "export_mesh", "length_scale", "surface_mesh", "write_bodies", "PrintOptions", "make_printable",
+    "split_by_sign",
+    "thin_spots",
+    "figure_metadata", "save_figure", "write_report",
+    "plane", "cross_section", "section_lines", "section_figure", "radial_figure", "radial_marks",
+    "Camera", "render_surfaces", "figure_3d", "small_multiples", "time_strip", "shell_states",
+    "load_config", "run_gallery",
+    "FigureOptions", "LayoutOptions", "SectionOptions", "RadialOptions", "MeshOptions", "DescribeOptions",
+    "figure_job", "section_job", "radial_job", "mesh_job", "describe_job",
+]

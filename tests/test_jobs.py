@@ -67,7 +67,7 @@ def test_command_line_and_gallery_offer_the_same_options(kind):
 def test_command_line_and_gallery_defaults_agree(kind):
     cli = _cli_options(COMMAND_OF[kind])
     unset = job_options(kind, {})  # a gallery output that sets nothing
-    for name, (opt, default) in _both(kind).items():
+    for name, (_, default) in _both(kind).items():
         if COMMAND_OF[kind] == "figure" and name in options_of(KINDS["layout"]):
             default = options_of(KINDS["layout"])[name][1]
         assert getattr(unset, name) == default, name
@@ -184,24 +184,17 @@ def test_a_new_field_is_a_flag_and_a_key_at_once():
 
 def test_names_spelled_out_agree_with_the_library():
     # the definitions name these without importing the heavy modules that use them
-    from orbitalrender.jobs import figure, mesh, radial, section, shared
+    from orbitalrender.jobs import radial, section, shared
     from orbitalrender.lattice.sampler import PRECISIONS
-    from orbitalrender.mesh.printable import BASES
-    from orbitalrender.picture.colormap import PHASE_SCHEMES
-    from orbitalrender.picture.output import DPI_RANGE
+    from orbitalrender.picture.plane import MAX_PIXELS, MIN_PIXELS, PLANE_NAMES
     from orbitalrender.picture.radialplot import RADIAL_QUANTITIES
-    from orbitalrender.picture.render3d import PROJECTIONS
-    from orbitalrender.picture.section import DENSITY_SCALES, MAX_PIXELS, MIN_PIXELS, PLANE_NAMES
     from orbitalrender.state.units import LENGTH_UNITS_PER_A0, NUCLEUS_PRESETS
 
     assert shared.LENGTH_UNITS == tuple(LENGTH_UNITS_PER_A0)
     assert shared.NUCLEUS_NAMES == tuple(NUCLEUS_PRESETS)
     assert shared.PRECISION_NAMES == tuple(PRECISIONS)
-    assert shared.PHASE_MAPS == PHASE_SCHEMES and shared.DPI_RANGE == DPI_RANGE
-    assert figure.PROJECTIONS == PROJECTIONS and mesh.BASES == BASES
     assert radial.RADIAL_QUANTITIES == RADIAL_QUANTITIES
-    assert (section.PLANE_NAMES, section.DENSITY_SCALES, section.PIXEL_RANGE) == \
-        (PLANE_NAMES, DENSITY_SCALES, (MIN_PIXELS, MAX_PIXELS))
+    assert (section.PLANE_NAMES, section.PIXEL_RANGE) == (PLANE_NAMES, (MIN_PIXELS, MAX_PIXELS))
 
 
 def test_describe_report_from_the_job():

@@ -72,7 +72,7 @@ def options_from(args: argparse.Namespace, cls: type) -> Any:
     """The options dataclass `cls` from parsed arguments (checked as gallery values are)."""
     name = flag_name(cls)
     values: dict[str, Any] = {}
-    for field, (opt, default) in options_of(cls).items():
+    for field, (opt, _) in options_of(cls).items():
         if not hasattr(args, field):
             continue
         value = getattr(args, field)

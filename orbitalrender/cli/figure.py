@@ -46,10 +46,11 @@ def _check(options: LayoutOptions) -> None:
 
 def run(options: LayoutOptions, args: argparse.Namespace) -> int:
     from ..atomic import check_writable
-    from ..lattice.memory import require_lattice_memory, require_render_memory, surface_bytes_per_point
+    from ..lattice.memory import require_lattice_memory, surface_bytes_per_point
+    from ..picture.axis import state_nodal_axis_centre
     from ..picture.layout import default_columns, shell_states
     from ..picture.output import default_output_path, figure_format
-    from ..picture.render3d import state_nodal_axis_centre
+    from ..picture.scene import render_path, require_render_memory
     from ..state.units import femtoseconds_to_au, nucleus_reduced_mass_ratio
 
     _check(options)
@@ -79,9 +80,9 @@ def run(options: LayoutOptions, args: argparse.Namespace) -> int:
     count = len(states)
     ncols = count if times is not None else (options.columns or default_columns(count))
     width, height = picture_size(options, count, ncols, times is not None)
-    banded = (options.cutaway is None and not options.nodal_axis
-              and options.translucent_outer in (None, 1.0))
-    require_render_memory(width, height, options.supersample, options.cutaway is not None, banded)
+    path = render_path(cutaway=options.cutaway is not None, nodal_axis=options.nodal_axis,
+                       translucent_outer=options.translucent_outer)
+    require_render_memory(width, height, options.supersample, path)  # before any work
     if options.nodal_axis and count == 1 and states[0] is not None:
         state_nodal_axis_centre(states[0])  # refuse before any work
     out = options.out

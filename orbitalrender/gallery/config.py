@@ -17,7 +17,6 @@ config leaves the results of earlier runs as they were.
 
 from __future__ import annotations
 
-import math
 import os
 import re
 import tomllib

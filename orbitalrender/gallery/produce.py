@@ -375,8 +375,8 @@ def _draw_radial(work: _Work, path: Path):
 def _render_thumbnail(surface: Surface, phase_map: str) -> Callable[[Path], None]:
     """A thumbnail maker that renders `surface` small with the project's renderer (for meshes)."""
     def make(target: Path) -> None:
+        from ..picture.compose import figure_3d
         from ..picture.output import save_figure
-        from ..picture.render3d import figure_3d
 
         fig, _ = figure_3d(surface, THUMBNAIL_PX, THUMBNAIL_PX, dpi=100.0, title="", legend=False,
                            scale_bar=False, phase_map=phase_map, supersample=2)

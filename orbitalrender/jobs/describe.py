@@ -83,7 +83,7 @@ def describe_field(lattice, source: str = "") -> dict:
     }
 
 
-def describe_surface(source, fraction: float, *, options: LatticeOptions = LatticeOptions()) -> dict:
+def describe_surface(source, fraction: float, *, options: LatticeOptions | None = None) -> dict:
     """Report of the surface enclosing `fraction`: level, enclosed fraction and topology.
 
     Examples
@@ -97,6 +97,7 @@ def describe_surface(source, fraction: float, *, options: LatticeOptions = Latti
     from ..surface.extract import extract_surface
     from ..surface.topology import topology
 
+    options = options if options is not None else LatticeOptions()
     if isinstance(source, State):
         surface = extract_surface(source, fraction, resolution=options.resolution,
                                   box=box_of(options, source), dtype=dtype_of(options))

@@ -13,6 +13,7 @@ from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from typing import Any, ClassVar
 
+from ..picture.camera import PROJECTIONS
 from .option import option
 from .shared import (
     FRACTION,
@@ -30,8 +31,6 @@ from .shared import (
 __all__ = ["FigureOptions", "LayoutOptions", "PROJECTIONS", "SIZE_RANGE_PX", "FIGURE_SIZE_PX", "PANEL_PX",
            "parse_size", "figure_job", "picture_size", "view_record"]
 
-#: Projections of the renderer (``picture.render3d.PROJECTIONS``).
-PROJECTIONS = ("orthographic", "perspective")
 #: Sides of a picture accepted, px: below 64 the legend and title do not fit; above 8192 one
 #: supersampled render needs gigabytes.
 SIZE_RANGE_PX = (64, 8192)
@@ -58,7 +57,7 @@ def parse_size(text: str) -> tuple[int, int]:
 
 
 def _camera(zoom: float) -> None:
-    lazy("picture.render3d", "Camera")(zoom=zoom)
+    lazy("picture.camera", "Camera")(zoom=zoom)
 
 
 @dataclass(frozen=True)
@@ -94,7 +93,7 @@ class FigureOptions(FileOptions, PictureOptions, LatticeOptions, FieldOptions, S
     cutaway: str | None = option(
         None, "remove part of the surface and cap the cut with psi: front, quadrant, or conditions "
               "such as x>0, z<-1.5, (1,1,0)>0 joined by &", type="text", metavar="CUT",
-        check=lazy("picture.render3d", "parse_cutaway"),
+        check=lazy("picture.cutaway", "parse_cutaway"),
         expected="'front', 'quadrant' or conditions such as 'x>0&y>0'")
     translucent_outer: float | None = option(
         None, "draw outer shells (parts lying wholly outside another part) with this opacity",
@@ -129,7 +128,7 @@ def picture_size(options: FigureOptions, count: int, ncols: int, strip: bool = F
         return options.width_px, options.height_px
     if count == 1 and not strip:
         return (options.width_px or FIGURE_SIZE_PX[0], options.height_px or FIGURE_SIZE_PX[1])
-    from ..picture.render3d import fit_geometry
+    from ..picture.compose import fit_geometry
 
     panel = getattr(options, "panel_px", PANEL_PX)
     nrows = -(-count // ncols)
@@ -177,9 +176,11 @@ def figure_job(states: Sequence, options: FigureOptions, *,
     (matplotlib.figure.Figure, dict)
         The figure and its metadata (see :func:`orbitalrender.picture.output.figure_metadata`).
     """
+    from ..picture.camera import Camera
+    from ..picture.compose import figure_3d, surface_title
+    from ..picture.cutaway import parse_cutaway
     from ..picture.layout import default_columns, small_multiples
     from ..picture.output import figure_metadata
-    from ..picture.render3d import Camera, figure_3d, parse_cutaway, surface_title
 
     def surface(state):
         return surface_for(state) if surface_for is not None else surface_of(state, options.fraction, options)

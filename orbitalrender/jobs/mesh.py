@@ -15,6 +15,12 @@ from pathlib import Path
 from typing import Any, ClassVar
 
 from ..errors import UserInputError
+from ..mesh.print_options import (
+    BASES,
+    DEFAULT_MIN_GAP_MM,
+    DEFAULT_MIN_THICKNESS_MM,
+    DEFAULT_STRUT_FRACTION,
+)
 from .option import option
 from .shared import (
     FRACTION,
@@ -29,8 +35,6 @@ from .shared import (
 
 __all__ = ["MeshOptions", "BASES", "MESH_SUFFIXES", "check_mesh", "print_options", "mesh_job"]
 
-#: Bases under a printable model (``mesh.printable.BASES``).
-BASES = ("disc", "plate", "none")
 #: Mesh formats, by suffix; the first is the gallery's default.
 MESH_SUFFIXES = (".stl", ".glb", ".ply", ".obj")
 #: Largest printed size accepted, mm (our choice: far beyond any desktop printer, small
@@ -58,13 +62,13 @@ class MeshOptions(FileOptions, LatticeOptions, FieldOptions, StateOptions):
                                  "open; the cut face is the base", type="bool", flag="--cutaway")
     parts: bool = option(False, "write each solid piece to its own file FILE_part1.EXT ... instead of "
                          "joining (needs the size in mm)", type="bool", key="")
-    min_thickness_mm: float = option(1.0, "report walls thinner than this (common practice for "
-                                     "fused-filament printers with a 0.4 mm nozzle)", lo=0, lo_open=True,
-                                     unit="mm")
-    min_gap_mm: float = option(0.5, "report gaps narrower than this (common practice for fused-filament "
-                               "printing: narrower gaps fuse)", lo=0, lo_open=True, unit="mm")
-    strut_fraction: float = option(0.05, "strut diameter as a fraction of the size", lo=0, hi=0.5,
-                                   lo_open=True)
+    min_thickness_mm: float = option(DEFAULT_MIN_THICKNESS_MM, "report walls thinner than this (common "
+                                     "practice for fused-filament printers with a 0.4 mm nozzle)",
+                                     lo=0, lo_open=True, unit="mm")
+    min_gap_mm: float = option(DEFAULT_MIN_GAP_MM, "report gaps narrower than this (common practice for "
+                               "fused-filament printing: narrower gaps fuse)", lo=0, lo_open=True, unit="mm")
+    strut_fraction: float = option(DEFAULT_STRUT_FRACTION, "strut diameter as a fraction of the size",
+                                   lo=0, hi=0.5, lo_open=True)
     split: str | None = option(None, "bodies for multi-material printing: sign (positive and negative "
                                "psi, real states) or phase (phase bands)", type="text",
                                choices=("sign", "phase"))
@@ -103,7 +107,7 @@ def check_mesh(options: MeshOptions, file: str, name: Callable[[str], str], *, s
 
 def print_options(options: MeshOptions):
     """The :class:`~orbitalrender.mesh.printable.PrintOptions` of a printable model or its parts."""
-    from ..mesh.printable import PrintOptions
+    from ..mesh.print_options import PrintOptions
 
     cut = options.print_cutaway
     return PrintOptions(options.min_thickness_mm, options.min_gap_mm, options.strut_fraction,

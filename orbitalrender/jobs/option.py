@@ -164,8 +164,9 @@ def expected_text(opt: Option) -> str:
     if opt.type == "texts":
         return "a non-empty list of strings"
     if opt.type == "numbers":
-        return ("a list of three finite numbers" if opt.count == 3 else
-                f"a list of {opt.count} finite numbers" if opt.count else "a non-empty list of finite numbers")
+        if opt.count is None:
+            return "a non-empty list of finite numbers"
+        return "a list of three finite numbers" if opt.count == 3 else f"a list of {opt.count} finite numbers"
     what = _number_word(opt)
     article = "an" if what == "integer" else "a"
     lo, hi = opt.lo, opt.hi

@@ -11,17 +11,17 @@ from collections.abc import Callable
 from dataclasses import dataclass, replace
 from typing import Any, ClassVar
 
+from ..picture.density import DENSITY_SCALES
 from .option import option
 from .shared import FRACTION, PHASE_MAPS, FieldOptions, FileOptions, PictureOptions, StateOptions, lazy
 
 __all__ = ["SectionOptions", "PLANE_NAMES", "DENSITY_SCALES", "PIXEL_RANGE", "MAX_DECADES",
            "parse_vector", "plane_of", "section_job"]
 
-#: Coordinate planes (``picture.section.PLANE_NAMES``) and lightness scales.
+#: Coordinate planes and the pixels per side accepted (``picture.plane.PLANE_NAMES``,
+#: ``MIN_PIXELS`` and ``MAX_PIXELS``, written out so that defining options does not load
+#: scipy.constants; tests/test_jobs.py checks that they agree).
 PLANE_NAMES = ("xy", "xz", "yz")
-DENSITY_SCALES = ("linear", "log")
-#: Pixels per side accepted: below 16 no line can be resolved, above 4096 one section
-#: holds more than 16 million exact psi evaluations (tens of seconds).
 PIXEL_RANGE = (16, 4096)
 #: Largest logarithmic range offered: float64 densities span far more, but beyond 12
 #: decades the picture shows round-off of the tails rather than the state.
@@ -54,7 +54,7 @@ class SectionOptions(FileOptions, PictureOptions, FieldOptions, StateOptions):
     plane: str | None = option(None, "a coordinate plane (default xz)", type="text", choices=PLANE_NAMES)
     normal: tuple[float, float, float] | None = option(
         None, "the plane's normal vector instead of a coordinate plane", type="numbers", count=3,
-        metavar="NX,NY,NZ", parse=parse_vector, check=lazy("picture.section", "plane"),
+        metavar="NX,NY,NZ", parse=parse_vector, check=lazy("picture.plane", "plane"),
         expected="three numbers, not all zero")
     offset_a0: float = option(0.0, "distance of the plane from the origin along its normal (for a "
                               "coordinate plane: the coordinate not in it)", unit="a0", flag="--offset",
@@ -78,8 +78,8 @@ class SectionOptions(FileOptions, PictureOptions, FieldOptions, StateOptions):
 
 
 def plane_of(options: SectionOptions):
-    """The :class:`~orbitalrender.picture.section.Plane` that `options` describe."""
-    from ..picture.section import plane
+    """The :class:`~orbitalrender.picture.plane.Plane` that `options` describe."""
+    from ..picture.plane import plane
 
     return plane(options.normal or options.plane or "xz", options.offset_a0)
 
@@ -103,7 +103,9 @@ def section_job(source: Any, options: SectionOptions, *, label: str,
     (matplotlib.figure.Figure, dict)
         The figure and its metadata.
     """
-    from ..picture.section import cross_section, section_figure, section_metadata
+    from ..picture.nodal import section_lines
+    from ..picture.section import cross_section
+    from ..picture.section_figure import section_figure, section_metadata
 
     fraction = options.fraction if options.contour and level_for is None else None
     section = cross_section(source, plane_of(options), options.extent_a0, options.pixels, fraction)
@@ -112,7 +114,9 @@ def section_job(source: Any, options: SectionOptions, *, label: str,
         section = replace(section, level=level.level, fraction_requested=level.fraction_requested,
                           fraction_enclosed=level.fraction_enclosed,
                           fraction_error=level.fraction_error, level_method=level.method)
-    style = (options.phase_map, options.scale, options.decades, options.units)
-    fig = section_figure(section, *style, nodes=options.nodes, title=options.title, label=label)
-    md = section_metadata(section, *style, options.nodes, source=options.field, dpi=options.dpi)
+    lines = section_lines(section, nodes=options.nodes)
+    style = dict(scheme=options.phase_map, scale=options.scale, decades=options.decades,
+                 units=options.units)
+    fig = section_figure(section, lines, **style, title=options.title, label=label)
+    md = section_metadata(section, lines, **style, source=options.field, dpi=options.dpi)
     return fig, md

@@ -13,10 +13,13 @@ from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Any
 
+from ..colormap import PHASE_SCHEMES as PHASE_MAPS
+from ..picture.output import DPI_RANGE
 from .option import option
 
 __all__ = ["StateOptions", "FieldOptions", "LatticeOptions", "PictureOptions", "FileOptions",
-           "FRACTION", "FRACTION_HELP", "LENGTH_UNITS", "NUCLEUS_NAMES", "PRECISION_NAMES", "PHASE_MAPS", "DPI_RANGE", "lazy",
+           "FRACTION", "FRACTION_HELP", "LENGTH_UNITS", "NUCLEUS_NAMES", "PRECISION_NAMES", "PHASE_MAPS",
+           "DPI_RANGE", "lazy",
            "parse_states", "box_of", "dtype_of", "surface_of"]
 
 #: The probability enclosed by surfaces, marked on radial plots and cut by sections when
@@ -31,10 +34,6 @@ PRECISION_NAMES = ("single", "double")
 LENGTH_UNITS = ("a0", "angstrom", "nm", "pm")
 #: Nucleus presets: the keys of ``state.units.NUCLEUS_NAMES`` (checked likewise).
 NUCLEUS_NAMES = ("infinite", "hydrogen", "deuterium", "positronium", "muonic-hydrogen")
-#: Phase colour maps (``picture.colormap.PHASE_SCHEMES``).
-PHASE_MAPS = ("uniform", "cvd", "sign")
-#: Dots per inch accepted for pictures (``picture.output.DPI_RANGE``).
-DPI_RANGE = (10.0, 2400.0)
 
 
 def lazy(module: str, name: str) -> Callable[..., Any]:
