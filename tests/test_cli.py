@@ -65,7 +65,7 @@ def test_public_names_resolve_and_dir_lists_them():
 # -- Ctrl-C ----------------------------------------------------------------------------
 #: Moments (s after the start) at which SIGINT is sent: during the imports, the parsing
 #: and the work of a figure that takes far longer than the last of them.
-_MOMENTS_S = (0.4, 0.8, 1.5, 3.0)
+_MOMENTS_S = (0.4, 0.8, 1.5, 3.0, 5.0)
 
 
 @pytest.mark.parametrize("delay_s", _MOMENTS_S)
@@ -120,7 +120,7 @@ def test_rewriting_keeps_options_and_marks_states():
     assert protect_leading_minus(parser, ["figure", "--times", "-1,2", "-1*2pz"]) == \
         ["figure", "--times=-1,2", " -1*2pz"]
     assert protect_leading_minus(parser, ["section", "2pz", "--offset", "-1.5", "--no-nodes"]) == \
-        ["section", "2pz", "--offset", "-1.5", "--no-nodes"]
+        ["section", "2pz", "--offset=-1.5", "--no-nodes"]
     assert protect_leading_minus(parser, ["--debug", "describe", "--res", "16", "-2s"]) == \
         ["--debug", "describe", "--res", "16", " -2s"]
     assert protect_leading_minus(parser, ["describe", "--", "-2s"]) == ["describe", "--", "-2s"]

@@ -59,7 +59,7 @@ def _gallery_config(tmp: Path) -> Path:
 QUICK = {
     "describe": (lambda t: ["describe", "2,1,0"], None, "orbitalrender.jobs.describe.describe_state"),
     "figure": (lambda t: ["figure", "2pz", "--resolution", "20", "--size", "240x160", "--supersample", "1",
-                          "--out", t / "f.png"], "f.png", "orbitalrender.picture.render3d.figure_3d"),
+                          "--out", t / "f.png"], "f.png", "orbitalrender.picture.compose.figure_3d"),
     "mesh": (lambda t: ["mesh", "2pz", "--fraction", "0.8", "--resolution", "20", "--out", t / "m.ply"],
              "m.ply", "orbitalrender.mesh.pipeline.surface_mesh"),
     "section": (lambda t: ["section", "2pz", "--pixels", "32", "--out", t / "s.png"], "s.png",
@@ -153,10 +153,10 @@ COMMAND_ERRORS = {
     "figure": [
         (["--fraction", "nan"], "--fraction"),
         (["--fraction", "1"], "--fraction"),
-        (["--resolution", "4"], "--resolution must be an integer >= 8"),
-        (["--resolution", "5000"], "the largest resolution that fits is"),
+        (["--resolution", "4"], "--resolution must be an integer in [8, 1024]"),
+        (["--resolution", "5000"], "--resolution must be an integer in [8, 1024]"),
         (["--box", "0.5"], "edge of the lattice"),
-        (["--box", "nan"], "half-width"),
+        (["--box", "nan"], "--box must be a number > 0"),
         (["--fraction", "0.0001"], "the surface is empty"),
         (["--zoom", "nan"], "zoom"),
         (["--azimuth", "inf"], "azimuth"),
@@ -173,7 +173,7 @@ COMMAND_ERRORS = {
     "mesh": [
         (["--fraction", "0"], "fraction"),
         (["--box", "0.5"], "edge of the lattice"),
-        (["--resolution", "5000"], "the largest resolution that fits is"),
+        (["--resolution", "5000"], "--resolution must be an integer in [8, 1024]"),
         (["--out", "m.xyz"], ".xyz"),
         (["--size-mm", "-3"], "--size-mm must be a number in (0, 10000]"),
         (["--size-mm", "nan"], "--size-mm must be a number in (0, 10000]"),
@@ -316,7 +316,7 @@ def test_subprocess_bad_input_is_one_line_and_status_2():
 def test_subprocess_internal_fault_with_debug_is_status_1_and_shows_the_traceback():
     code = textwrap.dedent("""
         import sys
-        import orbitalrender.cli.describe as d
+        import orbitalrender.jobs.describe as d
         def boom(*a, **k):
             raise RuntimeError("simulated internal fault")
         d.describe_state = boom

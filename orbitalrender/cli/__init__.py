@@ -162,14 +162,17 @@ def main(argv: list[str] | None = None) -> int:
 
 
 def _main(argv: list[str]) -> int:
+    import importlib
     import os
     import traceback
 
     parser = build_parser()
     args = parser.parse_args(protect_leading_minus(parser, argv))
     user_errors = _user_errors()
-    _on_sigint(signal.default_int_handler)  # the work: files in progress get removed
     try:
+        for module in getattr(args, "preload", ()):  # Ctrl-C here still quits at once (see add_command)
+            importlib.import_module(module)
+        _on_sigint(signal.default_int_handler)  # the work: files in progress get removed
         status = int(args.run(args) or 0)
         sys.stdout.flush()  # inside the try, so a reader that went away is handled below
         return status

@@ -22,7 +22,8 @@ def register(subparsers: argparse._SubParsersAction) -> None:
         subparsers, "describe", DescribeOptions, run,
         help="print energy, nodes, radii and expectation values of a state",
         description="Print the derived quantities of STATE (energy, nodes, <r>, <r^2>, <1/r>, "
-                    "most probable radius, radius holding 90 %), or a summary of a field file.")
+                    "most probable radius, radius holding 90 %), or a summary of a field file.",
+        preload=("orbitalrender.state.properties",))
 
 
 def run(options: DescribeOptions, args: argparse.Namespace) -> int:

@@ -27,7 +27,9 @@ def register(subparsers) -> None:
         help="draw the probability surface shaded and coloured by the phase of psi",
         description="Draw the surface enclosing a probability FRACTION of each STATE as a shaded 3D "
                     "picture, hue = phase of psi, with a phase legend and a scale bar.  Several "
-                    "STATEs (or --shell) make a grid at one scale; --times makes a time strip.")
+                    "STATEs (or --shell) make a grid at one scale; --times makes a time strip.",
+        preload=("orbitalrender.picture.compose", "orbitalrender.picture.layout",
+                 "orbitalrender.picture.scene", "orbitalrender.surface.extract"))
 
 
 def _check(options: LayoutOptions) -> None:

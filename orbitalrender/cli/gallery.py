@@ -28,7 +28,8 @@ def register(subparsers: argparse._SubParsersAction) -> None:
         description="Make every output listed in CONFIG (a TOML file; see docs/guide.md) in the "
                     "folder --out, each with its JSON report, and an index.html page.  Lattices, "
                     "levels and surfaces are cached, so a second run after a change of style "
-                    "only draws.")
+                    "only draws.",
+        preload=("orbitalrender.gallery.runner",))
     p.add_argument("config", metavar="CONFIG", help="the gallery config (.toml)")
     next(a for a in p._actions if a.dest == "out").required = True
 

@@ -23,7 +23,8 @@ def register(subparsers) -> None:
         subparsers, "mesh", MeshOptions, run,
         help="write the probability surface as a PLY, OBJ, STL or GLB mesh",
         description="Write the surface enclosing a probability FRACTION of a STATE as a mesh file, "
-                    "coloured by the phase of psi; optionally scaled and prepared for 3D printing.")
+                    "coloured by the phase of psi; optionally scaled and prepared for 3D printing.",
+        preload=("orbitalrender.mesh.pipeline", "orbitalrender.surface.extract"))
     next(a for a in p._actions if a.dest == "out").required = True
 
 

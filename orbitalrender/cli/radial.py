@@ -22,7 +22,8 @@ def register(subparsers) -> None:
         help="plot R(r), r^2 R^2 and P(r' < r) with nodes and radii marked",
         description="Plot the radial function R(r), the radial density r^2 R(r)^2 and the "
                     "cumulative probability P(r' < r) of each STATE, with the radial nodes, the "
-                    "most probable radius and the radius holding FRACTION marked.")
+                    "most probable radius and the radius holding FRACTION marked.",
+        preload=("orbitalrender.picture.radialplot", "orbitalrender.picture.output"))
 
 
 def run(options: RadialOptions, args: argparse.Namespace) -> int:

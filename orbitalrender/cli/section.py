@@ -24,7 +24,9 @@ def register(subparsers) -> None:
         help="draw psi on a plane: hue = phase, lightness = density, with nodal lines",
         description="Draw psi of STATE on a plane through it: hue from the phase, lightness from "
                     "|psi|^2, the cut through the surface holding FRACTION, nodal lines and a phase "
-                    "legend.")
+                    "legend.",
+        preload=("orbitalrender.picture.section", "orbitalrender.picture.section_figure",
+                 "orbitalrender.picture.nodal"))
 
 
 def run(options: SectionOptions, args: argparse.Namespace) -> int:

@@ -4,9 +4,9 @@
 :class:`Request` named by its cache key); :func:`make_request` makes one of them
 in a worker; :func:`make_output` draws and writes one output, its JSON report
 and its thumbnail, taking surfaces and levels from the cache.  Every kind calls
-the same library functions as its command (``figure``, ``layout`` -> the 3D
-renderer and layouts, ``section``, ``radial``, ``mesh``), so a gallery output and
-the command's output agree.
+the same job as its command (:mod:`orbitalrender.jobs`: ``figure`` and ``layout``
+-> ``figure_job``, ``section_job``, ``radial_job``, ``mesh_job``) with the options
+dataclass built from its keys, so a gallery output and the command's output agree.
 """
 
 from __future__ import annotations

@@ -85,8 +85,8 @@ class FieldOptions:
 class LatticeOptions:
     """The lattice psi is sampled on: points per axis, the cube and the precision."""
 
-    resolution: int = option(128, "lattice points per axis (the largest is set by the memory)",
-                             type="integer", lo=8)
+    resolution: int = option(128, "lattice points per axis (a lattice too big for the memory is "
+                             "refused with the largest that fits)", type="integer", lo=8, hi=1024)
     box_a0: float | None = option(None, "half-width of the lattice cube (default: from the state)",
                                   lo=0, lo_open=True, unit="a0", flag="--box", metavar="HALF_WIDTH_A0")
     precision: str = option("single", "complex64 (single) or complex128 (double) lattice values",
