@@ -9,7 +9,7 @@ from __future__ import annotations
 import os
 from dataclasses import dataclass
 
-from ..jobs.option import option
+from ..jobs.option import Options, option
 
 __all__ = ["GalleryRunOptions", "CACHE_FOLDER", "DEFAULT_LIMIT_GIB", "default_jobs"]
 
@@ -29,7 +29,7 @@ def default_jobs() -> int:
 
 
 @dataclass(frozen=True)
-class GalleryRunOptions:
+class GalleryRunOptions(Options):
     """How a gallery config is run (the gallery command)."""
 
     out: str | None = option(None, "output folder (created if missing)", type="text", metavar="DIR")

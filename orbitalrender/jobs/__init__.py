@@ -85,12 +85,12 @@ from __future__ import annotations
 from .describe import DescribeOptions, describe_job
 from .figure import FigureOptions, LayoutOptions, figure_job
 from .mesh import MeshOptions, check_mesh, mesh_job
-from .option import Option, OptionError, build, option, options_of
+from .option import Option, OptionError, Options, build, option, options_of
 from .radial import RadialOptions, radial_job
 from .section import SectionOptions, section_job
 from .shared import FieldOptions, FileOptions, LatticeOptions, PictureOptions, StateOptions
 
-__all__ = ["KINDS", "Option", "OptionError", "option", "options_of", "build",
+__all__ = ["KINDS", "Option", "OptionError", "Options", "option", "options_of", "build",
            "StateOptions", "FieldOptions", "LatticeOptions", "PictureOptions", "FileOptions",
            "FigureOptions", "LayoutOptions", "SectionOptions", "RadialOptions", "MeshOptions",
            "DescribeOptions", "figure_job", "section_job", "radial_job", "mesh_job", "describe_job",

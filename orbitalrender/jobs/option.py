@@ -26,8 +26,8 @@ from typing import Any
 
 from ..errors import UserInputError
 
-__all__ = ["Option", "OptionError", "option", "options_of", "convert", "build", "expected_text",
-           "shown", "flag_of", "key_of"]
+__all__ = ["Option", "OptionError", "Options", "option", "options_of", "convert", "build",
+           "expected_text", "shown", "flag_of", "key_of"]
 
 #: Value types an option can have.  ``"numbers"`` is a list of finite numbers (``count`` of
 #: them, or any number at least one), ``"texts"`` a list of strings, ``"text"`` a string.
@@ -272,6 +272,36 @@ def _type_ok(opt: Option, v: Any) -> bool:
         return isinstance(v, (list, tuple)) and bool(v) and all(isinstance(s, str) and s.strip() for s in v)
     return (isinstance(v, (list, tuple)) and bool(v) and (opt.count is None or len(v) == opt.count)
             and all(_is_number(x) and _in_range(opt, x) for x in v))
+
+
+@dataclass(frozen=True)
+class Options:
+    """Base of every options dataclass: each option field is checked (and normalised) when an
+    instance is made, so ``FigureOptions(supersample=9)`` is refused as the command line
+    and the gallery refuse it.
+
+    Examples
+    --------
+    >>> @dataclass(frozen=True)
+    ... class Demo(Options):
+    ...     zoom: float = option(1.0, "magnification", lo=0, lo_open=True)
+    >>> Demo(zoom=2).zoom
+    2.0
+    >>> Demo(zoom=0)
+    Traceback (most recent call last):
+    ...
+    orbitalrender.errors.UserInputError: zoom must be a number > 0, got 0
+    """
+
+    def __post_init__(self) -> None:
+        for name, (opt, default) in options_of(type(self)).items():
+            value = getattr(self, name)
+            if value is None and default is None:
+                continue
+            try:
+                object.__setattr__(self, name, convert(opt, value))
+            except OptionError as exc:
+                raise UserInputError(f"{name} must be {exc}") from None
 
 
 def build(cls: type, values: Mapping[str, Any], *, text: bool = False,

@@ -15,7 +15,7 @@ from typing import Any
 
 from ..colormap import PHASE_SCHEMES as PHASE_MAPS
 from ..picture.output import DPI_RANGE
-from .option import option
+from .option import Options, option
 
 __all__ = ["StateOptions", "FieldOptions", "LatticeOptions", "PictureOptions", "FileOptions",
            "FRACTION", "FRACTION_HELP", "LENGTH_UNITS", "NUCLEUS_NAMES", "PRECISION_NAMES", "PHASE_MAPS",
@@ -54,7 +54,7 @@ def _nucleus(value: Any) -> None:
 
 
 @dataclass(frozen=True)
-class StateOptions:
+class StateOptions(Options):
     """The state's physics: nuclear charge, reduced mass and the time of a superposition."""
 
     Z: float = option(1.0, "nuclear charge", lo=0, hi=200, lo_open=True, flag="--Z")
@@ -68,7 +68,7 @@ class StateOptions:
 
 
 @dataclass(frozen=True)
-class FieldOptions:
+class FieldOptions(Options):
     """psi from a file instead of a STATE: the file and the grid of an ``.npy`` array."""
 
     field: str | None = option(None, "psi stored in an .npy/.npz file instead of a STATE", type="text",
@@ -82,7 +82,7 @@ class FieldOptions:
 
 
 @dataclass(frozen=True)
-class LatticeOptions:
+class LatticeOptions(Options):
     """The lattice psi is sampled on: points per axis, the cube and the precision."""
 
     resolution: int = option(128, "lattice points per axis (a lattice too big for the memory is "
@@ -94,7 +94,7 @@ class LatticeOptions:
 
 
 @dataclass(frozen=True)
-class PictureOptions:
+class PictureOptions(Options):
     """A picture's look and size in print: length unit, title, dots per inch, background."""
 
     units: str = option("a0", "length unit of the axes and scale bar", type="text",
@@ -105,7 +105,7 @@ class PictureOptions:
 
 
 @dataclass(frozen=True)
-class FileOptions:
+class FileOptions(Options):
     """Where the command line writes (a gallery names its files itself)."""
 
     out: str | None = option(None, "output file; its suffix sets the format (default: named after "
