@@ -197,7 +197,7 @@ def run(args: argparse.Namespace) -> int:
     else:
         ncols = count if times is not None else (args.columns or default_columns(count))
         nrows = -(-count // ncols)
-        probe = fit_geometry(10 * _DEFAULT_PANEL_PX, _DEFAULT_PANEL_PX + 30, 1, 1, True, True, args.dpi)
+        probe = fit_geometry(10 * _DEFAULT_PANEL_PX, _DEFAULT_PANEL_PX + 30, dpi=args.dpi)
         width = ncols * _DEFAULT_PANEL_PX + probe.legend_px
         height = nrows * (_DEFAULT_PANEL_PX + probe.title_px)
     path = render_path(cutaway=cutaway is not None, nodal_axis=args.nodal_axis,
@@ -222,8 +222,9 @@ def run(args: argparse.Namespace) -> int:
         state = states[0]
         box = box_from_args(args, state)
         labels = [f"t = {t} {args.time_unit}" for t in args.times.split(",") if t.strip()]
-        fig, renders = time_strip(state, times, args.fraction, args.resolution, box, labels,
-                                  width_px=width, height_px=height, **common, **render_options)
+        fig, renders = time_strip(state, times, fraction=args.fraction, resolution=args.resolution,
+                                  box=box, time_labels=labels, width_px=width, height_px=height,
+                                  **common, **render_options)
         metadata = figure_metadata(state, args.fraction, None, args.resolution, command="figure",
                                    times_au=times, view=view, px_per_a0=renders[0].px_per_a0)
     elif len(states) == 1:
@@ -235,8 +236,8 @@ def run(args: argparse.Namespace) -> int:
                                    px_per_a0=render.px_per_a0)
     else:
         surfaces = [_surface(s, args) for s in states]
-        fig, renders = small_multiples(surfaces, [surface_title(s) for s in surfaces], args.columns,
-                                       width, height, **common, **render_options)
+        fig, renders = small_multiples(surfaces, [surface_title(s) for s in surfaces], ncols=args.columns,
+                                       width_px=width, height_px=height, **common, **render_options)
         metadata = figure_metadata(None, args.fraction, None, args.resolution, command="figure",
                                    panels=[_panel_record(s) for s in surfaces], view=view,
                                    px_per_a0=renders[0].px_per_a0)

@@ -131,8 +131,8 @@ def run(args: argparse.Namespace) -> int:
     if out is None:
         out = default_output_path(label, "section")
         check_writable(out)
-    section = cross_section(source, where, args.extent, args.pixels,
-                            None if args.no_contour else args.fraction)
+    section = cross_section(source, where, half_width_a0=args.extent, pixels=args.pixels,
+                            fraction=None if args.no_contour else args.fraction)
     lines = section_lines(section, nodes=not args.no_nodes)
     style = dict(scheme=args.phase_map, scale=args.scale, decades=args.decades, units=args.units)
     fig = section_figure(section, lines, **style, title=args.title, label=label)

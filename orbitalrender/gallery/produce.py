@@ -441,7 +441,7 @@ def _layout_size(work: _Work, count: int, ncols: int) -> tuple[int, int]:
         return work.caps.size(o["width_px"], o["height_px"])
     panel = o.get("panel_px", _PANEL_PX)
     nrows = -(-count // ncols)
-    probe = fit_geometry(10 * panel, panel + 30, 1, 1, True, True, work.opt("dpi"))
+    probe = fit_geometry(10 * panel, panel + 30, dpi=work.opt("dpi"))
     width = o.get("width_px", ncols * panel + probe.legend_px)
     height = o.get("height_px", nrows * (panel + probe.title_px))
     return work.caps.size(width, height)
@@ -463,7 +463,8 @@ def _draw_layout(work: _Work, path: Path):
         titles = [surface_title(s) for s in surfaces]
         ncols = o.get("columns", default_columns(len(surfaces)))
     size = _layout_size(work, len(surfaces), ncols)
-    fig, renders = small_multiples(surfaces, titles, ncols, *size, shared_target=strip,
+    fig, renders = small_multiples(surfaces, titles, ncols=ncols, width_px=size[0], height_px=size[1],
+                                   shared_target=strip,
                                    **_compose_options(work), **_render_options(work))
     first = surfaces[0]
     common = dict(command="figure", view=_view(work, renders[0], size), px_per_a0=renders[0].px_per_a0)
@@ -491,7 +492,7 @@ def _draw_section(work: _Work, path: Path):
     state = _state_of(work)
     source = state if state is not None else _load_user_field(_field_description(work.spec))
     pixels = work.caps.lattice(int(work.opt("pixels")))
-    section = cross_section(source, where, o.get("extent_a0"), pixels, fraction=None)
+    section = cross_section(source, where, half_width_a0=o.get("extent_a0"), pixels=pixels, fraction=None)
     contour = o.get("contour", True)
     if contour:
         level = work.level()
