@@ -41,13 +41,12 @@ from ..surface.model import Surface
 from .axis import AXIS_RGB, axis_layer, axis_segment
 from .camera import DEFAULT_CAMERA, Camera, Projection, as_surfaces, frame_camera, pixel_projection
 from .cutaway import Cutaway, cap_exit, clip_values
-from .raster import Fragments, rasterize
+from .raster import Fragments, Screen, rasterize
 from .shading import (
     BAND_ROWS,
     LINE_SAMPLE,
     Bands,
     Light,
-    Screen,
     ShadedMesh,
     band_lists,
     downsample,
@@ -383,7 +382,7 @@ def render_surfaces(surfaces: Surface | Sequence[Surface], width_px: int = 800, 
         x, y, depth, divisor = proj.project(vertices)
         # without a cut only faces toward the eye can be nearest on a closed surface: cull the rest
         frags = rasterize(x, y, depth, mesh.faces, proj.width, proj.height,
-                          clip_values(vertices, planes), divisor,
+                          clip_values=clip_values(vertices, planes), divisor=divisor,
                           skip=None if planes is not None else ~mesh.front)
         return _shade(frags, mesh, proj, light, rotation, planes, cap_psi)
 
@@ -401,7 +400,7 @@ def render_surfaces(surfaces: Surface | Sequence[Surface], width_px: int = 800, 
             screen = Screen(x, y, depth.astype(np.float64), w, divisor is not None)
             render_banded(screen, bands, mesh, light, ss, line_lin, premult, alpha)
         else:  # the whole image at once, so the line can be depth-tested against it
-            frags = rasterize(x, y, depth, mesh.faces, proj.width, proj.height, None, divisor,
+            frags = rasterize(x, y, depth, mesh.faces, proj.width, proj.height, divisor=divisor,
                               skip=~mesh.front)
             tri = frags.triangle
             tri[axis_layer(segment, proj, ss) < frags.depth] = LINE_SAMPLE

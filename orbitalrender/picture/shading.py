@@ -33,9 +33,9 @@ import numba
 import numpy as np
 
 from ..colormap import linear_to_srgb, phase_to_rgb, srgb_to_linear
-from .raster import scan_triangle
+from .raster import Buffers, scan_triangle
 
-__all__ = ["Light", "ShadedMesh", "Screen", "Bands", "LINE_SAMPLE", "BAND_ROWS", "linear_lut",
+__all__ = ["Light", "ShadedMesh", "Bands", "LINE_SAMPLE", "BAND_ROWS", "linear_lut",
            "srgb_lut", "shade_pixels", "shade_resolve", "render_banded", "band_lists", "shade_points",
            "downsample", "encode_srgb"]
 
@@ -69,16 +69,6 @@ class ShadedMesh(NamedTuple):
     phasors: np.ndarray  #: (V,) complex128 unit psi/|psi|, the global phase already removed
     front: np.ndarray    #: (F,) bool, True where the triangle faces the eye
     lut: np.ndarray      #: (K, 3) float64 linear-light phase table (:func:`linear_lut`)
-
-
-class Screen(NamedTuple):
-    """Projected vertices, in supersampled pixels, for the banded rasterizer."""
-
-    x: np.ndarray        #: (V,) column
-    y: np.ndarray        #: (V,) row
-    depth: np.ndarray    #: (V,) float64, smaller is nearer
-    w: np.ndarray        #: (V,) perspective divisor (ones for orthographic)
-    perspective: bool
 
 
 class Bands(NamedTuple):
@@ -243,17 +233,16 @@ def render_banded(screen, bands, mesh, light, ss, line_rgb, out, alpha):  # prag
     band = BAND_ROWS * ss
     band_start, band_faces = bands.start, bands.faces
     n_bands = band_start.shape[0] - 1
-    px, py, zv, w = screen.x, screen.y, screen.depth, screen.w
-    clip = np.zeros((px.shape[0], 0))
+    clip = np.zeros((screen.x.shape[0], 0))
     for b in numba.prange(n_bands):
         y0 = b * band
         y1 = min(y0 + band, height)
         depth = np.full((y1 - y0, width), np.inf, dtype=np.float32)
         tri = np.full((y1 - y0, width), -1, dtype=np.int32)
         wts = np.empty((y1 - y0, width, 3), dtype=np.float32)
+        buffers = Buffers(depth, tri, wts)
         for a in range(band_start[b], band_start[b + 1]):
-            scan_triangle(band_faces[a], px, py, zv, w, mesh.faces, clip, screen.perspective, width,
-                          y0, y1, depth, tri, wts)
+            scan_triangle(band_faces[a], screen, mesh.faces, clip, width, y0, y1, buffers)
         shade_resolve(tri, wts, mesh, light, ss, line_rgb, out, alpha, y0 // ss)
 
 
