@@ -26,7 +26,8 @@ from .lattice.sampler import default_box, sample
 from .lattice.userfield import load_field, save_field
 from .mesh.export import length_scale, surface_mesh, write_bodies
 from .mesh.pipeline import export_mesh
-from .mesh.printable import PrintOptions, make_printable, split_by_sign, thin_spots
+from .mesh.printable import PrintOptions, make_printable, split_by_sign
+from .mesh.walls import thin_spots
 from .picture.layout import shell_states, small_multiples, time_strip
 from .picture.output import figure_metadata, save_figure, write_report
 from .picture.radialplot import radial_figure, radial_marks

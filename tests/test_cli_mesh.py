@@ -113,7 +113,8 @@ def test_sign_split_of_a_complex_state_is_refused(tmp_path, capsys):
 
 
 @pytest.mark.parametrize(("extra", "message"), [
-    (["--out", "{d}/model.3mf"], "cannot tell the mesh format"),
+    (["--out", "{d}/model.amf"], "cannot tell the mesh format"),
+    (["--out", "{d}/model.3mf"], "a .3mf file holds millimetres"),
     (["--out", "{d}/model.stl", "--size-mm", "0"], "positive number of millimetres"),
     (["--out", "{d}/model.stl", "--size-mm", "-10"], "positive number of millimetres"),
     (["--out", "{d}/model.stl", "--printable"], "need --size-mm"),

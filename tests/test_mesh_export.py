@@ -56,8 +56,8 @@ def test_printed_size_must_be_positive(size):
 
 
 def test_unknown_suffix_is_refused():
-    with pytest.raises(UserInputError, match=r"\.ply, \.obj, \.stl, \.glb"):
-        mesh_suffix("model.3mf")
+    with pytest.raises(UserInputError, match=r"\.ply, \.obj, \.stl, \.glb, \.3mf"):
+        mesh_suffix("model.amf")
 
 
 def test_size_mm_makes_a_1s_sphere_of_that_diameter(tmp_path):

@@ -1,5 +1,5 @@
-"""Print preparation: joined models are one closed solid; split bodies carry the right phase;
-the wall and gap checks measure known shapes."""
+"""Print preparation: joined models are one closed solid at the printed size asked for; split
+bodies carry the right phase."""
 
 from __future__ import annotations
 
@@ -22,7 +22,6 @@ from orbitalrender.mesh.printable import (
     single_solid_problems,
     solid_parts,
     split_by_sign,
-    thin_spots,
 )
 from orbitalrender.state.notation import parse_state
 from orbitalrender.surface.extract import extract_surface
@@ -130,33 +129,6 @@ def test_phase_bands_of_a_complex_ring():
     # the wedges fill the ring but for the edges that marching cubes rounds (about one spacing
     # along each cut): a few per cent, shrinking as the lattice is refined
     assert 0 <= deficits[1] < deficits[0] < 0.05
-
-
-def test_wall_check_measures_a_shell_of_known_thickness():
-    # A spherical shell: outer radius 10 mm, inner 9.4 mm, so every wall is 0.6 mm
-    # (along the radius; the normals of an icosphere are radial).
-    outer = trimesh.creation.icosphere(4, radius=10.0)
-    inner = trimesh.creation.icosphere(4, radius=9.4)
-    inner.invert()
-    shell = trimesh.util.concatenate([outer, inner])
-    spots = thin_spots(shell, 1.0, "wall", samples=500)
-    assert spots.below == spots.checked
-    # icosphere facets lie inside the sphere by up to r (1 - cos(edge/2r)); 1 % covers it
-    assert spots.minimum_mm == pytest.approx(0.6, rel=0.02)
-    assert len(spots.locations_mm) == 20
-    thick = thin_spots(outer, 1.0, "wall", samples=200)
-    assert thick.below == 0
-
-
-def test_gap_check_measures_a_known_gap():
-    # Two balls of radius 5 mm whose surfaces are 0.3 mm apart along x.
-    a = trimesh.creation.icosphere(4, radius=5.0)
-    b = trimesh.creation.icosphere(4, radius=5.0).apply_translation([10.3, 0, 0])
-    pair = trimesh.util.concatenate([a, b])
-    spots = thin_spots(pair, 0.5, "gap", samples=len(pair.vertices))
-    assert spots.below > 0
-    assert spots.minimum_mm == pytest.approx(0.3, rel=0.03)
-    assert all(abs(x - 5.15) < 0.5 for x, _, _ in spots.locations_mm)
 
 
 def test_an_open_surface_cannot_be_a_solid():
