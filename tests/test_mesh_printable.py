@@ -149,3 +149,36 @@ def test_face_components_of_the_joined_model_is_one():
     _, mesh = _mesh_mm("3dz2", 0.9)
     assert len(face_components(mesh)) >= 3
     assert len(face_components(make_printable(mesh).mesh)) == 1
+
+
+@pytest.mark.parametrize(("text", "fraction", "cutaway", "size"), [
+    ("2pz", 0.9, False, 60.0), ("3dz2", 0.9, False, 80.0), ("3s", 0.9, True, 70.0), ("2s", 0.95, True, 45.0),
+])
+def test_size_mm_is_the_largest_side_of_the_whole_printed_object(text, fraction, cutaway, size):
+    # The base, struts and cut are part of what is printed: the largest side of the joined
+    # solid's own bounding box (trimesh) is the size asked for, within 1 %.
+    _, mesh = _mesh_mm(text, fraction, 48)
+    options = PrintOptions(cutaway=cutaway, base="none" if cutaway else "disc")
+    model = make_printable(mesh, options, size_mm=size)
+    _check_one_solid(model.mesh)
+    assert max(model.mesh.extents) == pytest.approx(size, rel=0.01)
+    orbital_mm = model.scale * SIZE_MM  # the orbital's own largest side in the model
+    if cutaway:  # the cut through the middle keeps the full width and depth
+        assert orbital_mm == pytest.approx(size, rel=0.01)
+    else:  # the base and its gap take part of the height
+        assert orbital_mm < 0.95 * size
+
+
+def test_a_small_printed_size_keeps_struts_and_base_printable():
+    # At 12 mm the fractions of the size fall below the printable minimum, which then holds:
+    # struts at least min_thickness_mm across, the base at least twice as thick.
+    _, mesh = _mesh_mm("2pz", 0.9, 48)
+    options = PrintOptions()
+    model = make_printable(mesh, options, size_mm=12.0)
+    assert max(model.mesh.extents) == pytest.approx(12.0, rel=0.01)
+    struts = [s for s in model.supports if s.kind in ("axial", "radial")]
+    assert struts and all(s.diameter_mm >= options.min_thickness_mm for s in struts)
+    (disc,) = [s for s in model.supports if s.kind == "disc"]
+    assert disc.end_mm[2] - disc.start_mm[2] >= 2 * options.min_thickness_mm - 1e-9
+    with pytest.raises(UserInputError, match="leaves no room for the orbital"):
+        make_printable(mesh, options, size_mm=1.0)
