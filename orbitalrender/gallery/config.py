@@ -38,6 +38,7 @@ from ..picture.section import DENSITY_SCALES, MAX_PIXELS, MIN_PIXELS, PLANE_NAME
 from ..state.model import State
 from ..state.notation import parse_state
 from ..state.units import LENGTH_UNITS_PER_A0, femtoseconds_to_au, nucleus_reduced_mass_ratio
+from .caption import check_caption
 
 __all__ = ["KINDS", "SCHEMA", "TOP_KEYS", "ConfigError", "OutputSpec", "GalleryConfig",
            "load_config", "parse_config", "Key"]
@@ -148,6 +149,13 @@ def _text(v, ctx):
     return v
 
 
+def _caption(v, ctx):
+    try:
+        return check_caption(_text(v, ctx))
+    except ValueError as exc:
+        raise _Bad(f"a string whose placeholders are report values: it {exc}") from None
+
+
 def _state_text(v, ctx):
     if not isinstance(v, str) or not v.strip():
         raise _Bad(None)
@@ -249,7 +257,7 @@ SCHEMA: dict[str, Key] = {k.name: k for k in [
        "starting with a letter or digit", output_only=True),
     _K("kind", _ALL, _kind, _choice_text(tuple(KINDS)), output_only=True),
     _K("file", _ALL, _file, "a relative file name inside the output folder", output_only=True),
-    _K("caption", _ALL, _text, "a string"),
+    _K("caption", _ALL, _caption, "a string"),
     # the state
     _K("state", ("figure", "section", "mesh", "layout"), _state_text, "a STATE string, e.g. '3dz2'"),
     _K("states", ("radial", "layout"), _state_list, "a non-empty list of STATE strings"),
