@@ -22,7 +22,7 @@ from orbitalrender.mesh.export import (
     write_bodies,
 )
 from orbitalrender.mesh.pipeline import export_mesh
-from orbitalrender.mesh.printable import PrintOptions
+from orbitalrender.mesh.print_options import PrintOptions
 from orbitalrender.picture.output import write_report
 from orbitalrender.state.model import eigenstate
 from orbitalrender.surface.extract import extract_surface

@@ -16,15 +16,9 @@ from ..errors import UserInputError
 from ..lattice.grid import Lattice
 from ..surface.model import Surface
 from .export import length_scale, mesh_suffix, surface_mesh, surface_report, write_bodies
-from .printable import (
-    PrintOptions,
-    make_printable,
-    phase_band_surfaces,
-    require_single_solid,
-    single_solid_problems,
-    solid_parts,
-    split_by_sign,
-)
+from .print_options import PrintOptions
+from .printable import make_printable, require_single_solid, single_solid_problems, solid_parts
+from .split import phase_band_surfaces, split_by_sign
 from .walls import thin_spots
 
 __all__ = ["export_mesh", "sibling_path", "SPLITS", "BODY_LABELS"]
@@ -75,7 +69,7 @@ def export_mesh(surface: Surface, path: str | os.PathLike, *, units: str = "a0",
         A scale instead of a size, so models at one scale compare; with `printable` the
         supports are added around the orbital at that scale.
     phase_map : str
-        Vertex colour scheme (see :mod:`orbitalrender.picture.colormap`).
+        Vertex colour scheme (see :mod:`orbitalrender.colormap`).
     printable : PrintOptions, optional
         Join the pieces into one checked solid with struts and a base (needs `size_mm` or
         `mm_per_a0`).
