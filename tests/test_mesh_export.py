@@ -192,3 +192,15 @@ def test_size_and_scale_exclude_each_other():
         length_scale(np.zeros((2, 3)), size_mm=50.0, mm_per_a0=2.0)
     with pytest.raises(UserInputError, match="positive number of millimetres per a0"):
         length_scale(np.zeros((2, 3)), mm_per_a0=0.0)
+
+
+def test_a_sign_split_at_a_size_is_that_size_all_bodies_together(tmp_path):
+    # Without struts the printed object is the bodies together: their joint box (trimesh's
+    # reading of the 3MF) has the size asked for as its largest side.
+    surface = extract_surface(eigenstate(2, 1, 0), 0.9, resolution=48)
+    path = tmp_path / "2pz.3mf"
+    report = export_mesh(surface, path, size_mm=50.0, split="sign")
+    scene = trimesh.load(path, process=False)
+    assert len(scene.geometry) == 2
+    assert max(scene.extents) == pytest.approx(50.0, rel=0.01)
+    assert report["extent_mm"] == pytest.approx(list(scene.extents), rel=1e-6)

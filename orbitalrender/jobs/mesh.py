@@ -74,8 +74,8 @@ class MeshOptions(FileOptions, LatticeOptions, FieldOptions, StateOptions):
                                      lo=0, lo_open=True, unit="mm")
     min_gap_mm: float = option(DEFAULT_MIN_GAP_MM, "report gaps narrower than this (common practice for "
                                "fused-filament printing: narrower gaps fuse)", lo=0, lo_open=True, unit="mm")
-    strut_fraction: float = option(DEFAULT_STRUT_FRACTION, "strut diameter as a fraction of the size",
-                                   lo=0, hi=0.5, lo_open=True)
+    strut_fraction: float = option(DEFAULT_STRUT_FRACTION, "strut diameter as a fraction of the "
+                                   "orbital's largest side", lo=0, hi=0.5, lo_open=True)
     split: str | None = option(None, "bodies for multi-material printing: sign (positive and negative "
                                "psi, real states) or phase (phase bands)", type="text",
                                choices=("sign", "phase"))
