@@ -17,7 +17,9 @@ import time
 from pathlib import Path
 
 from orbitalrender.mesh.export import MESH_SUFFIXES, length_scale, surface_mesh, write_bodies
-from orbitalrender.mesh.printable import PrintOptions, make_printable, require_single_solid, thin_spots
+from orbitalrender.mesh.print_options import PrintOptions
+from orbitalrender.mesh.printable import make_printable, require_single_solid
+from orbitalrender.mesh.walls import thin_spots
 from orbitalrender.state.notation import parse_state
 from orbitalrender.surface.extract import extract_surface
 

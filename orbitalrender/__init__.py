@@ -33,7 +33,7 @@ _EXPORTS: dict[str, str] = {
     "length_scale": "mesh.export", "surface_mesh": "mesh.export", "write_bodies": "mesh.export",
     "export_mesh": "mesh.pipeline",
     "PrintOptions": "mesh.print_options",
-    "make_printable": "mesh.printable", "thin_spots": "mesh.printable",
+    "make_printable": "mesh.printable", "thin_spots": "mesh.walls",
     "split_by_sign": "mesh.split",
     "shell_states": "picture.layout", "small_multiples": "picture.layout", "time_strip": "picture.layout",
     "figure_metadata": "picture.output", "save_figure": "picture.output", "write_report": "picture.output",

@@ -72,6 +72,37 @@ def test_printable_gives_exactly_one_watertight_component(tmp_path, capsys, stat
     assert data["printable"]["parts_joined"] == pieces == data["surface"]["components"]
     assert data["printable"]["thin_walls"]["checked"] > 0
     assert data["material_cm3"] == pytest.approx(mesh.volume / 1000, rel=1e-3)
+    # --size-mm is the whole printed object, base and struts included (trimesh's bounding box)
+    assert max(mesh.extents) == pytest.approx(60.0, rel=0.01)
+    assert data["extent_mm"] == pytest.approx(list(mesh.extents), rel=1e-6)
+
+
+def test_the_message_states_the_printed_box_and_the_orbital_box(tmp_path, capsys):
+    out, report = tmp_path / "2pz.stl", tmp_path / "r.json"
+    status, text, err = _run(capsys, "2pz", "--fraction", "0.9", *LOW, "--out", str(out), "--mm-per-a0", "2",
+                             "--printable", "--report", str(report))
+    assert status == 0, err
+    data = json.loads(report.read_text())
+    x, y, z = trimesh.load(out).extents
+    assert f"printed size {x:.1f} x {y:.1f} x {z:.1f} mm" in text
+    ox, oy, oz = data["orbital_extent_mm"]
+    assert f"the orbital itself {ox:.1f} x {oy:.1f} x {oz:.1f} mm" in text
+    # at 2 mm per a0 the orbital is twice its extent in a0; the base adds to the height only
+    assert data["orbital_extent_mm"] == pytest.approx([2 * e for e in data["extent_a0"]], rel=1e-12)
+    assert z > oz and data["size_requested_mm"] is None
+
+
+def test_a_sign_split_in_3mf_reads_back_as_two_named_watertight_objects(tmp_path, capsys):
+    out = tmp_path / "2pz.3mf"
+    status, _, err = _run(capsys, "2pz", "--fraction", "0.9", *LOW, "--out", str(out), "--mm-per-a0", "3",
+                          "--split", "sign")
+    assert status == 0, err
+    scene = trimesh.load(out, process=False)  # trimesh's own 3MF reader
+    assert set(scene.geometry) == {"psi>0", "psi<0"} and scene.units == "millimeter"
+    for body in scene.geometry.values():
+        assert body.is_watertight and body.body_count == 1 and body.volume > 0
+    # 2p_z is positive on +z (Condon-Shortley Y_1^0 ~ cos theta)
+    assert scene.geometry["psi>0"].centroid[2] > 0 > scene.geometry["psi<0"].centroid[2]
 
 
 def test_parts_are_written_to_numbered_files(tmp_path, capsys):
@@ -113,10 +144,13 @@ def test_sign_split_of_a_complex_state_is_refused(tmp_path, capsys):
 
 
 @pytest.mark.parametrize(("extra", "message"), [
-    (["--out", "{d}/model.3mf"], "cannot tell the mesh format"),
+    (["--out", "{d}/model.amf"], "cannot tell the mesh format"),
+    (["--out", "{d}/model.3mf"], "a .3mf file holds millimetres"),
     (["--out", "{d}/model.stl", "--size-mm", "0"], "--size-mm must be a number in (0, 10000]"),
     (["--out", "{d}/model.stl", "--size-mm", "-10"], "--size-mm must be a number in (0, 10000]"),
-    (["--out", "{d}/model.stl", "--printable"], "needs --size-mm"),
+    (["--out", "{d}/model.stl", "--printable"], "needs --size-mm (the printed size) or --mm-per-a0"),
+    (["--out", "{d}/model.stl", "--mm-per-a0", "-1"], "--mm-per-a0 must be a number in (0, 1000]"),
+    (["--out", "{d}/model.stl", "--size-mm", "60", "--mm-per-a0", "2"], "exclude each other"),
     (["--out", "{d}/missing/model.stl"], "does not exist"),
 ])
 def test_bad_input_is_one_line_and_exit_2(tmp_path, capsys, extra, message):

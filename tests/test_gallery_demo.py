@@ -2,11 +2,14 @@
 
 from __future__ import annotations
 
+import html
 import json
 from pathlib import Path
 
 import pytest
+import trimesh
 
+from orbitalrender.gallery.caption import fill_caption
 from orbitalrender.gallery.config import load_config
 from orbitalrender.gallery.runner import run_gallery
 
@@ -32,3 +35,29 @@ def test_demo_config_runs_in_draft_mode(config, tmp_path):
             assert report["components"] == 1 and report["watertight"]
     index = (tmp_path / "index.html").read_text()
     assert all(f'id="{r.spec.name}"' in index for r in result.records)
+
+
+FAIR = Path(__file__).resolve().parent.parent / "gallery_configs" / "bramblecombe-fair-models.toml"
+
+
+def test_the_fair_set_shares_one_scale_and_its_captions_come_from_the_reports(tmp_path):
+    # One mm_per_a0 for every mesh, and no hand-typed printed size anywhere in the set.
+    cfg = load_config(FAIR)
+    meshes = [o for o in cfg.outputs if o.kind == "mesh"]
+    scales = {o.options.get("mm_per_a0") for o in meshes}
+    assert len(scales) == 1 and None not in scales
+    assert all("size_mm" not in o.options for o in meshes)
+    assert all("{extent_mm}" in o.options["caption"] for o in meshes)
+    result = run_gallery(cfg, tmp_path, jobs=2, resolution_cap=32, size_cap_px=480)
+    assert not result.failed, [r.error for r in result.failed]
+    index = (tmp_path / "index.html").read_text()
+    for rec in result.records:
+        if rec.spec.kind != "mesh":
+            continue
+        report = json.loads(rec.report_path.read_text())
+        # the caption states the box of the file written, read back by trimesh
+        loaded = trimesh.load(rec.path, process=False, force="mesh")
+        assert report["extent_mm"] == pytest.approx(list(loaded.extents), rel=1e-6)
+        box = " × ".join(f"{v:.1f}" for v in report["extent_mm"]) + " mm"
+        assert html.escape(fill_caption(rec.spec.options["caption"], report)) in index
+        assert box in index

@@ -21,6 +21,8 @@ from orbitalrender.mesh.export import (
     surface_report,
     write_bodies,
 )
+from orbitalrender.mesh.pipeline import export_mesh
+from orbitalrender.mesh.print_options import PrintOptions
 from orbitalrender.picture.output import write_report
 from orbitalrender.state.model import eigenstate
 from orbitalrender.surface.extract import extract_surface
@@ -56,8 +58,8 @@ def test_printed_size_must_be_positive(size):
 
 
 def test_unknown_suffix_is_refused():
-    with pytest.raises(UserInputError, match=r"\.ply, \.obj, \.stl, \.glb"):
-        mesh_suffix("model.3mf")
+    with pytest.raises(UserInputError, match=r"\.ply, \.obj, \.stl, \.glb, \.3mf"):
+        mesh_suffix("model.amf")
 
 
 def test_size_mm_makes_a_1s_sphere_of_that_diameter(tmp_path):
@@ -119,3 +121,86 @@ def test_a_refused_file_leaves_the_earlier_one_intact(tmp_path):
         write_bodies(path, [surface_mesh(surface, 2.0)], check=refuse)
     assert path.read_bytes() == before
     assert sorted(p.name for p in tmp_path.iterdir()) == ["ball.glb"]  # no temporary left behind
+
+
+def _outer_radius_2s_a0(fraction: float) -> float:
+    # {|psi_2s|^2 >= c} is a ball r < a plus a shell b < r < d (R_20 has its node at r = 2).
+    # With R_20(r)^2 = (1 - r/2)^2 e^{-r} / 2 (sympy.physics.hydrogen.R_nl(2, 0, r, 1)) and the
+    # closed-form radial CDF P(r < x) = 1 - e^{-x} (1 + x + x^2/2 + x^4/8) (the integral of
+    # r^2 R_20^2, done by sympy), the level c holding `fraction` fixes d.
+    def radial_sq(r):
+        return (1 - r / 2) ** 2 * math.exp(-r) / 2
+
+    def cdf(x):
+        return 1 - math.exp(-x) * (1 + x + x * x / 2 + x**4 / 8)
+
+    r_peak = 3 + math.sqrt(5)  # d/dr of (1 - r/2)^2 e^{-r} vanishes at r = 3 +- sqrt(5)
+
+    def enclosed(c):
+        a = brentq(lambda r: radial_sq(r) - c, 0.0, 2.0)
+        b = brentq(lambda r: radial_sq(r) - c, 2.0, r_peak) if c < radial_sq(r_peak) else None
+        d = brentq(lambda r: radial_sq(r) - c, r_peak, 200.0) if b is not None else None
+        return cdf(a) + (cdf(d) - cdf(b) if b is not None else 0.0), d
+
+    level = brentq(lambda c: enclosed(c)[0] - fraction, 1e-12, radial_sq(r_peak) * (1 - 1e-9))
+    return enclosed(level)[1]
+
+
+def test_one_scale_gives_sizes_in_the_ratio_of_closed_form_radii(tmp_path):
+    # At one mm_per_a0 K, a 1s ball is 2 K r_1s across and the 2s outer shell 2 K r_2s, with
+    # each radius from the closed-form radial CDF (above; 1s: _ball_radius_a0).
+    scale = 2.0
+    extents = {}
+    for n in (1, 2):
+        surface = extract_surface(eigenstate(n, 0, 0), 0.9, resolution=72)
+        report = export_mesh(surface, tmp_path / f"{n}s.stl", mm_per_a0=scale)
+        extents[n] = max(report["extent_mm"])
+        assert report["mm_per_a0"] == scale and report["size_requested_mm"] is None
+    r1, r2 = _ball_radius_a0(0.9), _outer_radius_2s_a0(0.9)
+    assert extents[1] == pytest.approx(2 * scale * r1, rel=0.01)
+    assert extents[2] == pytest.approx(2 * scale * r2, rel=0.01)
+    assert extents[2] / extents[1] == pytest.approx(r2 / r1, rel=0.01)
+
+
+def test_one_scale_makes_the_z2_model_exactly_half_the_z1_model(tmp_path):
+    # Hydrogen-like lengths scale as a0 / Z (any handbook, e.g. Bethe and Salpeter sec. 3):
+    # at one scale the Z = 2 model is half the Z = 1 one, printed with its supports too,
+    # since these are sized from each model's own orbital.
+    sides = {}
+    for Z in (1.0, 2.0):
+        surface = extract_surface(eigenstate(2, 1, 0, Z=Z), 0.9, resolution=48)
+        report = export_mesh(surface, tmp_path / f"z{Z:g}.stl", mm_per_a0=10.0,
+                             printable=PrintOptions(min_thickness_mm=0.01, min_gap_mm=0.01))
+        sides[Z] = (max(report["orbital_extent_mm"]), report["size_mm"])
+    assert sides[1.0][0] / sides[2.0][0] == pytest.approx(2.0, rel=1e-6)
+    assert sides[1.0][1] / sides[2.0][1] == pytest.approx(2.0, rel=1e-4)
+
+
+@pytest.mark.parametrize("suffix", [".stl", ".3mf"])
+def test_report_extent_mm_is_the_bounding_box_of_the_file(tmp_path, suffix):
+    surface = extract_surface(eigenstate(2, 1, 0), 0.9, resolution=48)
+    path = tmp_path / f"2pz{suffix}"
+    report = export_mesh(surface, path, size_mm=60.0, printable=PrintOptions())
+    loaded = trimesh.load(path, process=False, force="mesh")  # trimesh's own reader
+    assert report["extent_mm"] == pytest.approx(list(loaded.extents), rel=1e-6)
+    assert report["size_mm"] == pytest.approx(60.0, rel=0.01)
+    assert max(report["orbital_extent_mm"]) < report["size_mm"]
+
+
+def test_size_and_scale_exclude_each_other():
+    with pytest.raises(UserInputError, match="not both"):
+        length_scale(np.zeros((2, 3)), size_mm=50.0, mm_per_a0=2.0)
+    with pytest.raises(UserInputError, match="positive number of millimetres per a0"):
+        length_scale(np.zeros((2, 3)), mm_per_a0=0.0)
+
+
+def test_a_sign_split_at_a_size_is_that_size_all_bodies_together(tmp_path):
+    # Without struts the printed object is the bodies together: their joint box (trimesh's
+    # reading of the 3MF) has the size asked for as its largest side.
+    surface = extract_surface(eigenstate(2, 1, 0), 0.9, resolution=48)
+    path = tmp_path / "2pz.3mf"
+    report = export_mesh(surface, path, size_mm=50.0, split="sign")
+    scene = trimesh.load(path, process=False)
+    assert len(scene.geometry) == 2
+    assert max(scene.extents) == pytest.approx(50.0, rel=0.01)
+    assert report["extent_mm"] == pytest.approx(list(scene.extents), rel=1e-6)

@@ -1,5 +1,5 @@
-"""Print preparation: joined models are one closed solid; split bodies carry the right phase;
-the wall and gap checks measure known shapes."""
+"""Print preparation: joined models are one closed solid at the printed size asked for; split
+bodies carry the right phase."""
 
 from __future__ import annotations
 
@@ -19,7 +19,6 @@ from orbitalrender.mesh.printable import (
     require_single_solid,
     single_solid_problems,
     solid_parts,
-    thin_spots,
 )
 from orbitalrender.state.notation import parse_state
 from orbitalrender.surface.extract import extract_surface
@@ -84,31 +83,6 @@ def test_nested_shells_need_a_cutaway():
     assert opened.mesh.extents[2] == pytest.approx(0.5 * SIZE_MM, rel=0.05)
 
 
-def test_wall_check_measures_a_shell_of_known_thickness():
-    # A spherical shell: outer radius 10 mm, inner 9.4 mm, so every wall is 0.6 mm
-    # (along the radius; the normals of an icosphere are radial).
-    outer = trimesh.creation.icosphere(4, radius=10.0)
-    inner = trimesh.creation.icosphere(4, radius=9.4)
-    inner.invert()
-    shell = trimesh.util.concatenate([outer, inner])
-    spots = thin_spots(shell, 1.0, "wall", samples=500)
-    assert spots.below == spots.checked
-    # icosphere facets lie inside the sphere by up to r (1 - cos(edge/2r)); 1 % covers it
-    assert spots.minimum_mm == pytest.approx(0.6, rel=0.02)
-    assert len(spots.locations_mm) == 20
-    thick = thin_spots(outer, 1.0, "wall", samples=200)
-    assert thick.below == 0
-
-
-def test_gap_check_measures_a_known_gap():
-    # Two balls of radius 5 mm whose surfaces are 0.3 mm apart along x.
-    a = trimesh.creation.icosphere(4, radius=5.0)
-    b = trimesh.creation.icosphere(4, radius=5.0).apply_translation([10.3, 0, 0])
-    pair = trimesh.util.concatenate([a, b])
-    spots = thin_spots(pair, 0.5, "gap", samples=len(pair.vertices))
-    assert spots.below > 0
-    assert spots.minimum_mm == pytest.approx(0.3, rel=0.03)
-    assert all(abs(x - 5.15) < 0.5 for x, _, _ in spots.locations_mm)
 
 
 def test_an_open_surface_cannot_be_a_solid():
@@ -129,3 +103,36 @@ def test_face_components_of_the_joined_model_is_one():
     _, mesh = _mesh_mm("3dz2", 0.9)
     assert len(face_components(mesh)) >= 3
     assert len(face_components(make_printable(mesh).mesh)) == 1
+
+
+@pytest.mark.parametrize(("text", "fraction", "cutaway", "size"), [
+    ("2pz", 0.9, False, 60.0), ("3dz2", 0.9, False, 80.0), ("3s", 0.9, True, 70.0), ("2s", 0.95, True, 45.0),
+])
+def test_size_mm_is_the_largest_side_of_the_whole_printed_object(text, fraction, cutaway, size):
+    # The base, struts and cut are part of what is printed: the largest side of the joined
+    # solid's own bounding box (trimesh) is the size asked for, within 1 %.
+    _, mesh = _mesh_mm(text, fraction, 48)
+    options = PrintOptions(cutaway=cutaway, base="none" if cutaway else "disc")
+    model = make_printable(mesh, options, size_mm=size)
+    _check_one_solid(model.mesh)
+    assert max(model.mesh.extents) == pytest.approx(size, rel=0.01)
+    orbital_mm = model.scale * SIZE_MM  # the orbital's own largest side in the model
+    if cutaway:  # the cut through the middle keeps the full width and depth
+        assert orbital_mm == pytest.approx(size, rel=0.01)
+    else:  # the base and its gap take part of the height
+        assert orbital_mm < 0.95 * size
+
+
+def test_a_small_printed_size_keeps_struts_and_base_printable():
+    # At 12 mm the fractions of the size fall below the printable minimum, which then holds:
+    # struts at least min_thickness_mm across, the base at least twice as thick.
+    _, mesh = _mesh_mm("2pz", 0.9, 48)
+    options = PrintOptions()
+    model = make_printable(mesh, options, size_mm=12.0)
+    assert max(model.mesh.extents) == pytest.approx(12.0, rel=0.01)
+    struts = [s for s in model.supports if s.kind in ("axial", "radial")]
+    assert struts and all(s.diameter_mm >= options.min_thickness_mm for s in struts)
+    (disc,) = [s for s in model.supports if s.kind == "disc"]
+    assert disc.end_mm[2] - disc.start_mm[2] >= 2 * options.min_thickness_mm - 1e-9
+    with pytest.raises(UserInputError, match="leaves no room for the orbital"):
+        make_printable(mesh, options, size_mm=1.0)

@@ -1,6 +1,6 @@
 """``orbitalrender mesh``: a STATE's probability surface as a mesh file (mesh step), ready to print.
 
-The format follows the suffix of ``--out`` (.ply, .obj, .stl, .glb).  The options
+The format follows the suffix of ``--out`` (.ply, .obj, .stl, .glb, .3mf).  The options
 are those of :class:`orbitalrender.jobs.MeshOptions`; the work is
 :func:`orbitalrender.jobs.mesh_job`.
 """
@@ -21,7 +21,7 @@ __all__ = ["register", "run"]
 def register(subparsers) -> None:
     p = add_command(
         subparsers, "mesh", MeshOptions, run,
-        help="write the probability surface as a PLY, OBJ, STL or GLB mesh",
+        help="write the probability surface as a PLY, OBJ, STL, GLB or 3MF mesh",
         description="Write the surface enclosing a probability FRACTION of a STATE as a mesh file, "
                     "coloured by the phase of psi; optionally scaled and prepared for 3D printing.",
         preload=("orbitalrender.mesh.pipeline", "orbitalrender.surface.extract"))
@@ -67,8 +67,12 @@ def run(options: MeshOptions, args: argparse.Namespace) -> int:
 def _print_summary(report: dict, files: list[str]) -> None:
     print(f"wrote {', '.join(files)}: {report['vertices']} vertices, {report['faces']} faces, "
           f"{report['components']} component(s), units {report['units']}")
-    if "material_cm3" in report:
-        print(f"material {report['material_cm3']:.2f} cm^3 at a largest extent of {report['size_mm']:g} mm")
+    if "extent_mm" in report:
+        x, y, z = report["extent_mm"]
+        ox, oy, oz = report["orbital_extent_mm"]
+        print(f"printed size {x:.1f} x {y:.1f} x {z:.1f} mm (largest side {report['size_mm']:.1f} mm) at "
+              f"{report['mm_per_a0']:.4g} mm per a0; the orbital itself {ox:.1f} x {oy:.1f} x {oz:.1f} mm; "
+              f"material {report['material_cm3']:.2f} cm^3")
     for key in ("thin_walls", "narrow_gaps"):
         spots = report.get("printable", {}).get(key)
         if spots and spots["below"]:

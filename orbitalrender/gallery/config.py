@@ -31,6 +31,7 @@ from ..jobs.mesh import MESH_SUFFIXES, check_mesh
 from ..jobs.option import Option, OptionError, build, convert, expected_text, key_of, options_of, shown
 from ..state.model import State
 from ..state.phase import is_real
+from .caption import check_caption
 
 __all__ = ["KINDS", "SCHEMA", "TOP_KEYS", "ConfigError", "OutputSpec", "GalleryConfig",
            "load_config", "parse_config", "job_options", "Key"]
@@ -90,6 +91,13 @@ def _text(v, ctx):
     if not isinstance(v, str):
         raise _Bad(None)
     return v
+
+
+def _caption(v, ctx):
+    try:
+        return check_caption(_text(v, ctx))
+    except ValueError as exc:
+        raise _Bad(f"a string whose placeholders are report values: it {exc}") from None
 
 
 def _state_text(v, ctx):
@@ -174,7 +182,7 @@ SCHEMA: dict[str, Key] = {k.name: k for k in [
        "starting with a letter or digit", output_only=True),
     _K("kind", _ALL, _kind, "one of " + ", ".join(f"'{k}'" for k in KINDS), output_only=True),
     _K("file", _ALL, _file, "a relative file name inside the output folder", output_only=True),
-    _K("caption", _ALL, _text, "a string"),
+    _K("caption", _ALL, _caption, "a string"),
     # the state
     _K("state", ("figure", "section", "mesh", "layout"), _state_text, "a STATE string, e.g. '3dz2'"),
     _K("states", ("radial", "layout"), _state_list, "a non-empty list of STATE strings"),

@@ -2,7 +2,8 @@
 
 One card per output, in config order: the thumbnail (a downscaled copy of a PNG
 output, a small render of a figure saved as SVG or PDF, a small render of a
-mesh's surface, or a text placeholder), the output's name, kind, caption and
+mesh's surface, or a text placeholder), the output's name, kind, caption (with the
+report's numbers filled in: :mod:`orbitalrender.gallery.caption`) and
 file, its settings (the config keys in force for it) and its report (the main
 numbers, and the whole JSON in a fold-out).  A failed output shows its error.
 The page is self-contained (inline style, relative links) and carries no time
@@ -19,6 +20,7 @@ from pathlib import Path
 
 from ..atomic import atomic_path
 from .cache import CacheStats
+from .caption import fill_caption
 from .config import GalleryConfig
 from .produce import OutputRecord
 
@@ -27,7 +29,7 @@ __all__ = ["write_index", "render_index", "SUMMARY_KEYS"]
 #: Report entries shown on the card (the whole report is in the fold-out).
 SUMMARY_KEYS = ("state", "states", "fraction", "fraction_requested", "fraction_enclosed",
                 "level_a0^-3", "level", "resolution", "lattice_shape", "components", "genus",
-                "watertight", "size_mm", "material_cm3", "units")
+                "watertight", "size_mm", "extent_mm", "mm_per_a0", "material_cm3", "units")
 
 _STYLE = """
 body { font-family: system-ui, sans-serif; margin: 2em; color: #222; background: #fafafa; }
@@ -78,7 +80,7 @@ def _card(out_dir: Path, rec: OutputRecord) -> str:
              f'<h2>{html.escape(spec.name)} <span class="kind">({spec.kind})</span></h2>']
     caption = spec.options.get("caption")
     if caption:
-        parts.append(f"<p>{html.escape(caption)}</p>")
+        parts.append(f"<p>{html.escape(fill_caption(caption, rec.report))}</p>")
     if rec.error:
         parts.append(f'<p class="error">failed: {html.escape(rec.error)}</p>')
     else:

@@ -372,14 +372,18 @@ def _draw_radial(work: _Work, path: Path):
     return _save(work, fig, path, md)
 
 
-def _render_thumbnail(surface: Surface, phase_map: str) -> Callable[[Path], None]:
-    """A thumbnail maker that renders `surface` small with the project's renderer (for meshes)."""
+def _render_thumbnail(surface: Surface, phase_map: str, cut: bool = False) -> Callable[[Path], None]:
+    """A thumbnail maker that renders `surface` small with the project's renderer (for meshes);
+    with `cut`, without the half that a printed cutaway removes (y above the middle of the box)."""
     def make(target: Path) -> None:
         from ..picture.compose import figure_3d
+        from ..picture.cutaway import parse_cutaway
         from ..picture.output import save_figure
 
+        middle_y = 0.5 * (surface.vertices_a0[:, 1].min() + surface.vertices_a0[:, 1].max())
+        cutaway = parse_cutaway(f"y>{middle_y:.9g}") if cut else None
         fig, _ = figure_3d(surface, THUMBNAIL_PX, THUMBNAIL_PX, dpi=100.0, title="", legend=False,
-                           scale_bar=False, phase_map=phase_map, supersample=2)
+                           scale_bar=False, phase_map=phase_map, supersample=2, cutaway=cutaway)
         save_figure(fig, target, {})
     return make
 
@@ -391,4 +395,5 @@ def _draw_mesh(work: _Work, path: Path):
     surface = work.surfaces()[0]
     report = mesh_job(surface, path, work.options)
     report["files"] = [work.spec.file]
-    return report, _render_thumbnail(surface, work.options.phase_map)
+    return report, _render_thumbnail(surface, work.options.phase_map,
+                                     cut=work.options.printable and work.options.print_cutaway)

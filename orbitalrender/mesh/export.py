@@ -1,7 +1,7 @@
 """Mesh step, export: a Surface to a coloured mesh file at a chosen unit or printed size, with a report.
 
-The file format follows the suffix (``.ply``, ``.obj``, ``.stl``, ``.glb``; one
-module per format beside this one).  Coordinates are in a0 unless another
+The file format follows the suffix (``.ply``, ``.obj``, ``.stl``, ``.glb``, ``.3mf``;
+one module per format beside this one).  Coordinates are in a0 unless another
 length unit is asked for; ``size_mm`` instead scales the surface so that the
 largest side of its bounding box is that many millimetres (the unit printer
 slicers assume).  Every file is written through :func:`orbitalrender.atomic.atomic_path`
@@ -25,12 +25,14 @@ from ..state.phase import sign_rotation
 from ..state.units import a0_to
 from ..surface.model import Surface
 from ..surface.topology import topology
-from . import glb, obj, ply, stl
+from . import glb, obj, ply, stl, threemf
 from .bodies import face_components, submesh
 
 __all__ = [
     "MESH_SUFFIXES",
     "mesh_suffix",
+    "check_size_mm",
+    "check_mm_per_a0",
     "length_scale",
     "surface_mesh",
     "encode_bodies",
@@ -40,9 +42,7 @@ __all__ = [
 ]
 
 #: File suffix -> the format module that encodes it.
-MESH_SUFFIXES = {m.SUFFIX: m for m in (ply, obj, stl, glb)}
-#: Colour of struts and bases (sRGB, 0-255): a neutral mid grey, so they read as "not the orbital".
-SUPPORT_RGBA = (150, 150, 150, 255)
+MESH_SUFFIXES = {m.SUFFIX: m for m in (ply, obj, stl, glb, threemf)}
 _MM3_PER_CM3 = 1000.0
 
 
@@ -61,34 +61,69 @@ def mesh_suffix(path: str | os.PathLike) -> str:
     return suffix
 
 
-def length_scale(vertices_a0: np.ndarray, units: str = "a0",
-                 size_mm: float | None = None) -> tuple[float, str]:
+def length_scale(vertices_a0: np.ndarray, units: str = "a0", size_mm: float | None = None, *,
+                 mm_per_a0: float | None = None) -> tuple[float, str]:
     """(factor, unit): multiply a0 coordinates by `factor` to get lengths in `unit`.
 
     With `size_mm` the unit is ``"mm"`` and the factor makes the largest side of the
-    bounding box of `vertices_a0` equal to `size_mm`; otherwise the unit is `units`
-    (a0, angstrom, nm, pm) at its physical value.
+    bounding box of `vertices_a0` equal to `size_mm`; with `mm_per_a0` (a scale common
+    to any number of models, so their sizes compare) the unit is ``"mm"`` and the factor
+    is that scale; otherwise the unit is `units` (a0, angstrom, nm, pm) at its physical
+    value.  `size_mm` and `mm_per_a0` exclude each other.
 
     Examples
     --------
     >>> import numpy as np
     >>> length_scale(np.array([[-2.0, 0, 0], [2.0, 1, 1]]), size_mm=40.0)
     (10.0, 'mm')
+    >>> length_scale(np.zeros((1, 3)), mm_per_a0=2.5)
+    (2.5, 'mm')
     >>> round(length_scale(np.zeros((1, 3)), "angstrom")[0], 6)
     0.529177
     """
+    if size_mm is not None and mm_per_a0 is not None:
+        raise UserInputError("give either the printed size in mm or the scale in mm per a0, not both")
+    if mm_per_a0 is not None:
+        return check_mm_per_a0(mm_per_a0), "mm"
     if size_mm is None:
         try:
             return a0_to(units), units
         except ValueError as exc:
             raise UserInputError(str(exc)) from None
-    size_mm = float(size_mm)
-    if not (size_mm > 0 and math.isfinite(size_mm)):
-        raise UserInputError(f"the printed size must be a positive number of millimetres, got {size_mm:g}")
+    size_mm = check_size_mm(size_mm)
     extent = float(np.max(np.ptp(vertices_a0, axis=0))) if len(vertices_a0) else 0.0
     if extent <= 0:
         raise UserInputError("the surface has no extent to scale")
     return size_mm / extent, "mm"
+
+
+def _positive(value: float, what: str, unit: str) -> float:
+    value = float(value)
+    if not (value > 0 and math.isfinite(value)):
+        raise UserInputError(f"{what} must be a positive number of {unit}, got {value:g}")
+    return value
+
+
+def check_size_mm(size_mm: float) -> float:
+    """`size_mm` as a float, or UserInputError if it is not a positive, finite length.
+
+    Examples
+    --------
+    >>> check_size_mm(60)
+    60.0
+    """
+    return _positive(size_mm, "the printed size", "millimetres")
+
+
+def check_mm_per_a0(mm_per_a0: float) -> float:
+    """`mm_per_a0` as a float, or UserInputError if it is not a positive, finite scale.
+
+    Examples
+    --------
+    >>> check_mm_per_a0(2)
+    2.0
+    """
+    return _positive(mm_per_a0, "the scale", "millimetres per a0")
 
 
 def surface_mesh(surface: Surface, factor: float = 1.0, scheme: str = "uniform") -> trimesh.Trimesh:
@@ -137,6 +172,8 @@ def encode_bodies(bodies: Sequence[trimesh.Trimesh], suffix: str, names: Sequenc
         return obj.encode_obj(bodies, comment=comment, names=names)
     if suffix == ".ply":
         return ply.encode_ply(bodies, comment=comment)
+    if suffix == ".3mf":
+        return threemf.encode_3mf(bodies, names=names, units=units, title=comment)
     return stl.encode_stl(bodies, comment=comment)
 
 
@@ -206,8 +243,14 @@ def surface_report(surface: Surface, written: trimesh.Trimesh, factor: float, un
                    size_mm: float | None = None) -> dict:
     """The JSON-ready report of an export: the surface's provenance and the written mesh's
     geometry (top level), the surface's own topology (``surface``, in a0, from
-    :func:`orbitalrender.surface.topology.topology`); after a printed size also ``size_mm``
-    and ``material_cm3`` (solid volume of the written model, struts and base included)."""
+    :func:`orbitalrender.surface.topology.topology`).
+
+    In millimetres (after a printed size `size_mm` or a scale) it also has
+    ``mm_per_a0``; ``extent_mm``, the sides of the bounding box of the file written
+    (struts, base and cut included) and ``size_mm``, the largest of them;
+    ``size_requested_mm`` (`size_mm`, or None at a given scale); ``orbital_extent_mm``,
+    the sides of the whole surface's own bounding box at that scale; and
+    ``material_cm3``, the solid volume of the written model."""
     report = {
         "state": surface.state.label if surface.state is not None else None,
         "fraction_requested": surface.fraction_requested,
@@ -222,8 +265,11 @@ def surface_report(surface: Surface, written: trimesh.Trimesh, factor: float, un
     }
     report.update(mesh_summary(written, factor))
     report["surface"] = topology(surface).as_dict()
-    if size_mm is not None:
-        report["size_mm"] = float(size_mm)
+    if unit == "mm":
+        report["mm_per_a0"] = factor
         report["extent_mm"] = [float(e) for e in np.ptp(written.vertices, axis=0)]
+        report["size_mm"] = max(report["extent_mm"])
+        report["size_requested_mm"] = None if size_mm is None else float(size_mm)
+        report["orbital_extent_mm"] = [e * factor for e in report["extent_a0"]]
         report["material_cm3"] = report["volume_units3"] / _MM3_PER_CM3
     return report

@@ -17,12 +17,15 @@ from ..lattice.grid import Lattice
 from ..surface.model import Surface
 from .export import length_scale, mesh_suffix, surface_mesh, surface_report, write_bodies
 from .print_options import PrintOptions
-from .printable import make_printable, require_single_solid, single_solid_problems, solid_parts, thin_spots
+from .printable import make_printable, require_single_solid, single_solid_problems, solid_parts
 from .split import phase_band_surfaces, split_by_sign
+from .walls import thin_spots
 
-__all__ = ["export_mesh", "sibling_path", "SPLITS"]
+__all__ = ["export_mesh", "sibling_path", "SPLITS", "BODY_LABELS"]
 
 SPLITS = ("sign", "phase")
+#: The name inside a file of each body of a sign split (its file name keeps the key).
+BODY_LABELS = {"positive": "psi>0", "negative": "psi<0"}
 
 
 def sibling_path(path: str | os.PathLike, name: str) -> Path:
@@ -44,7 +47,7 @@ def _mean_phase(mesh) -> float:
 
 
 def export_mesh(surface: Surface, path: str | os.PathLike, *, units: str = "a0",
-                size_mm: float | None = None, phase_map: str = "uniform",
+                size_mm: float | None = None, mm_per_a0: float | None = None, phase_map: str = "uniform",
                 printable: PrintOptions | None = None, parts: bool = False,
                 split: str | None = None, bands: int = 4, separate: bool = False,
                 lattice: Lattice | None = None) -> dict:
@@ -55,15 +58,21 @@ def export_mesh(surface: Surface, path: str | os.PathLike, *, units: str = "a0",
     surface : Surface
         From :func:`orbitalrender.surface.extract.extract_surface`.
     path : path-like
-        ``.ply``, ``.obj``, ``.stl`` or ``.glb``.
+        ``.ply``, ``.obj``, ``.stl``, ``.glb`` or ``.3mf`` (which needs millimetres).
     units : str
-        Length unit of the coordinates (a0, angstrom, nm, pm) when `size_mm` is None.
+        Length unit of the coordinates (a0, angstrom, nm, pm) when neither `size_mm` nor
+        `mm_per_a0` is given.
     size_mm : float, optional
-        Scale so the largest side of the bounding box is this many millimetres.
+        Millimetres of the largest side of what is written: of the whole printed object
+        (base, struts and cut included) with `printable`, else of the surface.
+    mm_per_a0 : float, optional
+        A scale instead of a size, so models at one scale compare; with `printable` the
+        supports are added around the orbital at that scale.
     phase_map : str
         Vertex colour scheme (see :mod:`orbitalrender.colormap`).
     printable : PrintOptions, optional
-        Join the pieces into one checked solid with struts and a base (needs `size_mm`).
+        Join the pieces into one checked solid with struts and a base (needs `size_mm` or
+        `mm_per_a0`).
     parts : bool
         Write each solid piece to FILE_partK.EXT instead of joining them; the wall limit
         comes from `printable` (default :class:`PrintOptions`).
@@ -78,8 +87,8 @@ def export_mesh(surface: Surface, path: str | os.PathLike, *, units: str = "a0",
     -------
     dict
         JSON-ready: the surface's provenance, the written mesh's counts, components, Euler
-        characteristics, watertightness and volume, ``files``, and after `size_mm` also
-        ``size_mm`` and ``material_cm3``.
+        characteristics, watertightness and volume, ``files``, and in millimetres also the
+        sizes of :func:`~orbitalrender.mesh.export.surface_report`.
 
     Examples
     --------
@@ -96,14 +105,18 @@ def export_mesh(surface: Surface, path: str | os.PathLike, *, units: str = "a0",
     suffix = mesh_suffix(path)
     if split is not None and split not in SPLITS:
         raise UserInputError(f"unknown split {split!r}: use one of {', '.join(SPLITS)}")
-    if (printable is not None or parts) and size_mm is None:
-        raise UserInputError("printing options need a printed size in millimetres (size_mm)")
+    factor, unit = length_scale(surface.vertices_a0, units, size_mm, mm_per_a0=mm_per_a0)
+    if (printable is not None or parts) and unit != "mm":
+        raise UserInputError("printing options need a printed size in mm (size_mm) or a scale in mm "
+                             "per a0 (mm_per_a0)")
+    if suffix == ".3mf" and unit != "mm":
+        raise UserInputError("a .3mf file holds millimetres: give a printed size in mm (size_mm) or a "
+                             "scale in mm per a0 (mm_per_a0)")
     if split and (printable is not None or parts):
         raise UserInputError("a split writes bodies for multi-material printing and cannot be "
                              "combined with a printable model or parts")
     if split == "phase" and lattice is None:
         raise UserInputError("a phase split needs the lattice the surface came from")
-    factor, unit = length_scale(surface.vertices_a0, units, size_mm)
     mesh = surface_mesh(surface, factor, phase_map)
     label = surface.state.label if surface.state is not None else "user field"
     comment = f"{label}; F = {surface.fraction_requested:g}; units {unit}"
@@ -127,7 +140,8 @@ def export_mesh(surface: Surface, path: str | os.PathLike, *, units: str = "a0",
         extra["parts"] = summaries
         written = mesh
     elif printable is not None:
-        model = make_printable(mesh, printable)
+        model = make_printable(mesh, printable, size_mm=size_mm)
+        factor *= model.scale
         written = write(path, [model.mesh], check=require_single_solid)
         extra["printable"] = {
             "parts_joined": model.parts_joined,
@@ -142,13 +156,15 @@ def export_mesh(surface: Surface, path: str | os.PathLike, *, units: str = "a0",
         else:
             named = {f"band{k + 1}": surface_mesh(b, factor, phase_map)
                      for k, b in enumerate(phase_band_surfaces(lattice, surface.level, bands))}
+        labels = {name: BODY_LABELS.get(name, name) for name in named}
         if separate or suffix == ".stl":
             for name, body in named.items():
-                write(sibling_path(path, name), [body])
+                write(sibling_path(path, name), [body], names=[labels[name]])
         else:
-            write(path, list(named.values()), names=list(named))
-        extra["bodies"] = {name: {"faces": int(len(b.faces)), "watertight": bool(b.is_watertight),
-                                  "mean_phase_rad": _mean_phase(b)} for name, b in named.items()}
+            write(path, list(named.values()), names=list(labels.values()))
+        extra["bodies"] = {name: {"label": labels[name], "faces": int(len(b.faces)),
+                                  "watertight": bool(b.is_watertight), "mean_phase_rad": _mean_phase(b)}
+                           for name, b in named.items()}
         written = mesh
     else:
         written = write(path, [mesh])

@@ -21,9 +21,7 @@ solid); ``cutaway`` removes the half y > 0 (after the struts are added) so the
 inside is open, and lays the model on its flat cut face, which then serves as the
 base.
 
-Wall thickness and gaps are checked by casting rays from sampled vertices along
-the inward (walls) or outward (gaps) normal to the first surface they meet
-(:mod:`trimesh.ray`).
+Wall thickness and gaps are checked by :mod:`orbitalrender.mesh.walls`.
 
 The struts and base are not part of the orbital: they are grey in coloured
 files, with NaN phase and density.
@@ -32,29 +30,26 @@ files, with NaN phase and density.
 from __future__ import annotations
 
 import math
-from dataclasses import asdict, dataclass, field
+from dataclasses import dataclass
 
-import manifold3d
 import numpy as np
 import trimesh
-from scipy.sparse import coo_matrix
-from scipy.sparse.csgraph import connected_components
 from scipy.spatial import cKDTree
 
 from ..errors import UserInputError
-from .bodies import concatenate, face_components, submesh
-from .export import SUPPORT_RGBA
+from .bodies import SUPPORT_RGBA, concatenate, face_components, submesh
+from .export import check_size_mm
 from .print_options import DEFAULT_PRINT_OPTIONS, PrintOptions
+from .union import solid_union
+from .walls import contains_point, crossings
 
 __all__ = [
     "Support",
-    "ThinSpots",
     "PrintedModel",
     "solid_parts",
     "make_printable",
     "single_solid_problems",
     "require_single_solid",
-    "thin_spots",
 ]
 
 #: Facets around a strut or disc (our choice: smooth at print sizes of a few centimetres).
@@ -75,35 +70,6 @@ class Support:
 
 
 @dataclass(frozen=True)
-class ThinSpots:
-    """Result of a wall (``kind="wall"``) or gap (``kind="gap"``) check.
-
-    Attributes
-    ----------
-    limit_mm : float
-        The threshold checked against.
-    checked : int
-        Vertices sampled.
-    below : int
-        How many of them have a wall (gap) thinner (narrower) than `limit_mm`.
-    minimum_mm : float or None
-        The thinnest wall (narrowest gap) found; None when no ray met the surface.
-    locations_mm : tuple of (x, y, z)
-        The worst sampled vertices below the limit, thinnest first (at most 20).
-    """
-
-    kind: str
-    limit_mm: float
-    checked: int
-    below: int
-    minimum_mm: float | None
-    locations_mm: tuple[tuple[float, float, float], ...] = field(default=())
-
-    def as_dict(self) -> dict:
-        return asdict(self)
-
-
-@dataclass(frozen=True)
 class PrintedModel:
     """The prepared solid (mm, lowest point at z = 0, axis at x = y = 0) and how it was made."""
 
@@ -111,6 +77,8 @@ class PrintedModel:
     parts_joined: int
     supports: tuple[Support, ...]
     cutaway: bool
+    #: Factor applied to the input mesh's coordinates to reach the printed size asked for (else 1).
+    scale: float = 1.0
 
 
 def solid_parts(mesh: trimesh.Trimesh) -> list[trimesh.Trimesh]:
@@ -147,7 +115,7 @@ def solid_parts(mesh: trimesh.Trimesh) -> list[trimesh.Trimesh]:
             continue
         point = comps[i].vertices[:1]
         # the smallest outward piece that contains the cavity wall owns it
-        owner = next((j for j in outers if volumes[j] > -v and _contains(comps[j], point[0])), None)
+        owner = next((j for j in outers if volumes[j] > -v and contains_point(comps[j], point[0])), None)
         if owner is None:
             raise UserInputError("the surface has an inward-facing part that lies in no solid piece")
         members[owner].append(i)
@@ -160,7 +128,7 @@ def _inside_intervals(mesh: trimesh.Trimesh, origin: np.ndarray, direction: np.n
                       ) -> list[tuple[float, float]]:
     """Parameter intervals (t0, t1), t >= 0, where origin + t * direction lies inside `mesh`."""
     direction = direction / np.linalg.norm(direction)
-    t = _crossings(mesh, origin, direction)
+    t = crossings(mesh, origin, direction)
     if len(t) % 2:  # an odd count: the ray starts inside
         t = np.concatenate([[0.0], t])
     return [(float(a), float(b)) for a, b in zip(t[::2], t[1::2])]
@@ -247,66 +215,126 @@ def _base(bounds: np.ndarray, size: float, thickness: float, kind: str, gap: flo
     return solid, Support(kind, (*centre_xy, z_top - thickness), (*centre_xy, z_top), width)
 
 
-def _manifold(mesh: trimesh.Trimesh) -> manifold3d.Manifold:
-    return manifold3d.Manifold(manifold3d.Mesh(vert_properties=np.asarray(mesh.vertices, np.float32),
-                                               tri_verts=np.asarray(mesh.faces, np.uint32)))
+#: The turn that lays a cutaway model on its cut face: the face's outward normal +y to -z.
+_CUT_TURN = trimesh.geometry.align_vectors([0.0, 1.0, 0.0], [0.0, 0.0, -1.0])
+#: Relative error of the printed size at which the search for the scale stops (our choice:
+#: far inside the 1 % promised, and reached in two to four steps) and the most steps it takes.
+_SIZE_TOLERANCE = 1e-6
+_SIZE_STEPS = 12
 
 
-def _solid(pieces: list[trimesh.Trimesh], size: float, keep_below_y: float | None = None
-           ) -> trimesh.Trimesh:
-    """Boolean union of closed `pieces` (manifold3d), optionally cut to y <= `keep_below_y`.
+@dataclass(frozen=True)
+class _Plan:
+    """The closed pieces whose union is the model (orbital parts, base, struts, joint balls),
+    the supports among them, the axis and the orbital's largest side (mm)."""
 
-    The result is simplified, and corners closer than 1e-5 of the model's size are welded
-    (0.6 um at 60 mm, our choice: far below any printer's resolution, far above float32
-    rounding): see :func:`_weld`.
+    pieces: tuple[trimesh.Trimesh, ...]
+    supports: tuple[Support, ...]
+    axis_xy: np.ndarray
+    size: float
+
+
+def _plan(parts: list[trimesh.Trimesh], options: PrintOptions) -> _Plan:
+    """Base, struts and joints for `parts` (mm), sized from the orbital's largest side:
+
+    * strut diameter: `strut_fraction` of it, never below `min_thickness_mm`;
+    * base thickness: 4 % of it, never below twice `min_thickness_mm` (our choice: stiff,
+      not heavy); base width: 60 % of it, never narrower than the model's footprint;
+    * gap between base and model: 8 % of it (our choice: the base reads as a stand), never
+      below twice `min_gap_mm`, so it does not fuse shut.
     """
-    solid = manifold3d.Manifold.batch_boolean([_manifold(p) for p in pieces], manifold3d.OpType.Add)
-    if keep_below_y is not None:
-        # keep the half-space y <= keep_below_y: trim_by_plane keeps the side the normal points to
-        solid = solid.trim_by_plane((0.0, -1.0, 0.0), -keep_below_y)
-    solid = solid.simplify(1e-5 * size)
-    if solid.status() != manifold3d.Error.NoError:
-        raise RuntimeError(f"the boolean union failed: {solid.status()}")
-    out = solid.to_mesh64()
-    return _weld(np.asarray(out.vert_properties[:, :3], float), np.asarray(out.tri_verts, np.int64),
-                 1e-5 * size)
+    corners = np.vstack([p.bounds for p in parts])
+    bounds = np.array([corners.min(axis=0), corners.max(axis=0)])
+    size = float(np.max(bounds[1] - bounds[0]))
+    diameter = max(options.strut_fraction * size, options.min_thickness_mm)
+    axis_xy = 0.5 * (bounds[0, :2] + bounds[1, :2])
+    pieces = list(parts)
+    base_support = None
+    z_bottom = None
+    if options.base != "none" and not options.cutaway:
+        thickness = max(0.04 * size, 2 * options.min_thickness_mm)
+        base_mesh, base_support = _base(bounds, size, thickness, options.base,
+                                        gap=max(0.08 * size, 2 * options.min_gap_mm))
+        pieces.append(base_mesh)
+        z_bottom = base_support.start_mm[2] + thickness / 2
+    supports = _plan_struts(parts, axis_xy, diameter, z_bottom)
+    pieces.extend(_strut(np.array(s.start_mm), np.array(s.end_mm), s.diameter_mm) for s in supports)
+    # a ball where radial struts leave the axis, so no two cylinder walls meet at a tangent
+    for centre in sorted({s.start_mm for s in supports if s.kind == "radial"}):
+        supports.append(Support("joint", centre, centre, _JOINT_RATIO * diameter))
+        ball = trimesh.creation.icosphere(2, radius=_JOINT_RATIO * diameter / 2)
+        pieces.append(_twisted(ball.apply_translation(centre), centre))
+    if base_support is not None:
+        supports.append(base_support)
+    return _Plan(tuple(pieces), tuple(supports), axis_xy, size)
 
 
-def _weld(vertices: np.ndarray, faces: np.ndarray, tolerance: float) -> trimesh.Trimesh:
-    """Merge corners closer than `tolerance` and drop the faces that collapse.
+def _planned_extent(plan: _Plan, cutaway: bool) -> np.ndarray:
+    """Sides (mm) of the bounding box of the model that `plan` joins, without joining it.
 
-    Where a strut's edge meets a lobe the union can leave corners a rounding step apart;
-    written as float32 (every STL) they coincide, and a reader that joins equal corners
-    would see edges of four faces.  Merging them is an edge collapse: the faces that had
-    both ends of the short edge vanish, and their neighbours close the gap.
+    The union of closed pieces has the bounding box of all of them.  A cut to
+    y <= axis keeps, of each piece, the corners on the kept side and the points where its
+    edges cross the cut plane, and these span the bounding box of the cut piece.
     """
-    pairs = cKDTree(vertices).query_pairs(tolerance, output_type="ndarray")
-    if len(pairs):
-        graph = coo_matrix((np.ones(len(pairs)), (pairs[:, 0], pairs[:, 1])),
-                           shape=(len(vertices), len(vertices)))
-        _, label = connected_components(graph, directed=False)
-        first = np.full(label.max() + 1, -1)
-        first[label[::-1]] = np.arange(len(vertices))[::-1]  # lowest index of each group
-        faces = first[label][faces]
-        faces = faces[(faces[:, 0] != faces[:, 1]) & (faces[:, 1] != faces[:, 2])
-                      & (faces[:, 0] != faces[:, 2])]
-        # two faces on the same three corners (a membrane left by the collapse): drop both
-        key = np.sort(faces, axis=1)
-        _, index, counts = np.unique(key, axis=0, return_index=True, return_counts=True)
-        faces = faces[np.sort(index[counts == 1])]
-    mesh = trimesh.Trimesh(vertices, faces, process=False)
-    mesh.remove_unreferenced_vertices()
-    return mesh
+    if not cutaway:
+        return np.ptp(np.vstack([p.bounds for p in plan.pieces]), axis=0)
+    y = float(plan.axis_xy[1])
+    points = []
+    for piece in plan.pieces:
+        v = piece.vertices
+        points.append(v[v[:, 1] <= y])
+        a, b = v[piece.edges[:, 0]], v[piece.edges[:, 1]]
+        crossing = (a[:, 1] - y) * (b[:, 1] - y) < 0
+        a, b = a[crossing], b[crossing]
+        points.append(a + ((y - a[:, 1]) / (b[:, 1] - a[:, 1]))[:, None] * (b - a))
+    return np.ptp(np.vstack(points) @ _CUT_TURN[:3, :3].T, axis=0)
 
 
-def make_printable(mesh_mm: trimesh.Trimesh, options: PrintOptions = DEFAULT_PRINT_OPTIONS) -> PrintedModel:
+def _scale_for_size(parts: list[trimesh.Trimesh], options: PrintOptions, size_mm: float) -> float:
+    """The factor on `parts` that makes the largest side of the whole printed model `size_mm`.
+
+    The printed size is a continuous, increasing, piecewise linear function of the factor
+    (each support is a fixed fraction of the orbital's size or a fixed minimum), so a
+    secant search on it, evaluated from plans without joining them, ends in a few steps.
+    """
+    def printed(scale: float) -> float:
+        scaled = [trimesh.Trimesh(p.vertices * scale, p.faces, process=False) for p in parts]
+        return float(np.max(_planned_extent(_plan(scaled, options), options.cutaway)))
+
+    orbital = float(np.max(np.ptp(np.vstack([p.bounds for p in parts]), axis=0)))
+    s0 = size_mm / orbital
+    f0 = printed(s0)
+    s1 = s0 * size_mm / f0
+    f1 = printed(s1)
+    for _ in range(_SIZE_STEPS):
+        if abs(f1 - size_mm) <= _SIZE_TOLERANCE * size_mm:
+            return s1
+        if f1 == f0:
+            break
+        s0, f0, s1 = s1, f1, s1 + (size_mm - f1) * (s1 - s0) / (f1 - f0)
+        if s1 <= 0:
+            raise UserInputError(
+                f"a printed size of {size_mm:g} mm leaves no room for the orbital beside a base and struts "
+                f"at least {options.min_thickness_mm:g} mm thick; give a larger size")
+        f1 = printed(s1)
+    if abs(f1 - size_mm) <= 1e-3 * size_mm:  # a kink met late: still well inside 1 %
+        return s1
+    raise RuntimeError(f"no scale found that prints {size_mm:g} mm (closest {f1:.4g} mm)")
+
+
+def make_printable(mesh_mm: trimesh.Trimesh, options: PrintOptions = DEFAULT_PRINT_OPTIONS, *,
+                   size_mm: float | None = None) -> PrintedModel:
     """Join the pieces of a closed surface mesh (in mm) into one solid with struts and a base.
 
     Parameters
     ----------
     mesh_mm : trimesh.Trimesh
-        The surface, already scaled to millimetres, with colours and attributes.
+        The surface, in millimetres, with colours and attributes.
     options : PrintOptions
+    size_mm : float, optional
+        The largest side of the whole printed object, base, struts and cut included: the
+        surface is first scaled by the factor that gives it (``PrintedModel.scale``).
+        Without it the surface keeps its size and the supports are added around it.
 
     Returns
     -------
@@ -318,35 +346,23 @@ def make_printable(mesh_mm: trimesh.Trimesh, options: PrintOptions = DEFAULT_PRI
     Notes
     -----
     Check the result with :func:`require_single_solid`: a sealed cavity (nested
-    shells without ``cutaway``) is reported there.
+    shells without ``cutaway``) is reported there.  Supports are sized from the
+    orbital's own largest side (see :func:`_plan`), so at a common scale each model of
+    a set gets struts in proportion to itself, never thinner than the printable minimum.
     """
     parts = solid_parts(mesh_mm)
-    bounds = mesh_mm.bounds
-    size = float(np.max(bounds[1] - bounds[0]))
-    diameter = max(options.strut_fraction * size, options.min_thickness_mm)
-    axis_xy = 0.5 * (bounds[0, :2] + bounds[1, :2])
-    pieces = [p for p in parts]
-    base_support = None
-    use_base = options.base != "none" and not options.cutaway
-    if use_base:
-        thickness = max(0.04 * size, 2 * options.min_thickness_mm)  # our choice: stiff, not heavy
-        base_mesh, base_support = _base(bounds, size, thickness, options.base, gap=0.08 * size)
-        pieces.append(base_mesh)
-        z_bottom = base_support.start_mm[2] + thickness / 2
-    else:
-        z_bottom = None
-    supports = _plan_struts(parts, axis_xy, diameter, z_bottom)
-    pieces.extend(_strut(np.array(s.start_mm), np.array(s.end_mm), s.diameter_mm) for s in supports)
-    # a ball where radial struts leave the axis, so no two cylinder walls meet at a tangent
-    joints = {s.start_mm for s in supports if s.kind == "radial"}
-    for centre in joints:
-        supports.append(Support("joint", centre, centre, _JOINT_RATIO * diameter))
-        ball = trimesh.creation.icosphere(2, radius=_JOINT_RATIO * diameter / 2)
-        pieces.append(_twisted(ball.apply_translation(centre), centre))
-    solid = _solid(pieces, size, keep_below_y=axis_xy[1] if options.cutaway else None)
+    scale = 1.0
+    if size_mm is not None:
+        scale = _scale_for_size(parts, options, check_size_mm(size_mm))
+        mesh_mm = mesh_mm.copy()
+        mesh_mm.vertices = mesh_mm.vertices * scale
+        for part in parts:
+            part.vertices = part.vertices * scale
+    plan = _plan(parts, options)
+    axis_xy = plan.axis_xy
+    solid = solid_union(list(plan.pieces), plan.size, keep_below_y=axis_xy[1] if options.cutaway else None)
     if options.cutaway:
-        # lay the cut face (normal +y) on the bed
-        solid.apply_transform(trimesh.geometry.align_vectors([0.0, 1.0, 0.0], [0.0, 0.0, -1.0]))
+        solid.apply_transform(_CUT_TURN)  # lay the cut face (normal +y) on the bed
     low = solid.bounds[0]
     centre = 0.5 * (solid.bounds[0] + solid.bounds[1])
     shift = np.array([-centre[0], -centre[1], -low[2]])
@@ -355,17 +371,16 @@ def make_printable(mesh_mm: trimesh.Trimesh, options: PrintOptions = DEFAULT_PRI
     solid.apply_translation(shift)
     moved = mesh_mm.copy()
     if options.cutaway:
-        moved.apply_transform(trimesh.geometry.align_vectors([0.0, 1.0, 0.0], [0.0, 0.0, -1.0]))
+        moved.apply_transform(_CUT_TURN)
     moved.apply_translation(shift)
-    _transfer_colours(moved, solid, tolerance=1e-3 * size)
-    if base_support is not None:
-        supports = [*supports, base_support]
+    _transfer_colours(moved, solid, tolerance=1e-3 * plan.size)
     if options.cutaway:
-        supports = []  # their coordinates no longer apply after the cut and turn
+        supports = ()  # their coordinates no longer apply after the cut and turn
     else:
-        supports = [Support(s.kind, tuple(np.add(s.start_mm, shift).tolist()),
-                            tuple(np.add(s.end_mm, shift).tolist()), s.diameter_mm) for s in supports]
-    return PrintedModel(solid, len(parts), tuple(supports), options.cutaway)
+        supports = tuple(Support(s.kind, tuple(np.add(s.start_mm, shift).tolist()),
+                                 tuple(np.add(s.end_mm, shift).tolist()), s.diameter_mm)
+                         for s in plan.supports)
+    return PrintedModel(solid, len(parts), supports, options.cutaway, scale)
 
 
 def _transfer_colours(source: trimesh.Trimesh, target: trimesh.Trimesh, tolerance: float) -> None:
@@ -416,120 +431,3 @@ def require_single_solid(mesh: trimesh.Trimesh) -> None:
             hint = ("; a shell inside a shell stays a sealed cavity: open it with --cutaway "
                     "or write the pieces separately with --parts")
         raise UserInputError("the model is not one printable solid: " + "; ".join(problems) + hint)
-
-
-def _ray_triangle(origins: np.ndarray, directions: np.ndarray, triangles: np.ndarray
-                  ) -> tuple[np.ndarray, np.ndarray]:
-    """Moller-Trumbore test of ray i against triangle i: (t, hit) with the hit point at
-    origins + t * directions, t > 0.  A small tolerance keeps a ray through an edge or a
-    corner from slipping between two faces.
-
-    References
-    ----------
-    .. [1] T. Moller and B. Trumbore, "Fast, minimum storage ray-triangle intersection",
-           Journal of Graphics Tools 2(1), 21-28 (1997).
-    """
-    e1 = triangles[:, 1] - triangles[:, 0]
-    e2 = triangles[:, 2] - triangles[:, 0]
-    p = np.cross(directions, e2)
-    det = np.einsum("ij,ij->i", e1, p)
-    scale = np.einsum("ij,ij->i", e1, e1) * np.einsum("ij,ij->i", e2, e2)
-    ok = np.abs(det) > 1e-12 * np.sqrt(scale)  # not parallel to the triangle's plane
-    inv = np.divide(1.0, det, out=np.zeros_like(det), where=ok)
-    s = origins - triangles[:, 0]
-    u = np.einsum("ij,ij->i", s, p) * inv
-    q = np.cross(s, e1)
-    v = np.einsum("ij,ij->i", directions, q) * inv
-    t = np.einsum("ij,ij->i", e2, q) * inv
-    tol = 1e-9
-    return t, ok & (u >= -tol) & (v >= -tol) & (u + v <= 1 + tol) & (t > 0)
-
-
-def _crossings(mesh: trimesh.Trimesh, origin: np.ndarray, direction: np.ndarray) -> np.ndarray:
-    """Sorted distances t > 0 at which one ray crosses `mesh` (every triangle tested: for
-    a handful of rays this is cheaper than building a spatial index)."""
-    count = len(mesh.faces)
-    t, hit = _ray_triangle(np.broadcast_to(origin, (count, 3)), np.broadcast_to(direction, (count, 3)),
-                           mesh.triangles)
-    t = np.sort(t[hit])
-    # a ray through an edge or a corner meets each adjacent face: keep one crossing
-    if len(t):
-        t = t[np.concatenate([[True], np.diff(t) > 1e-9 * max(1.0, float(t[-1]))])]
-    return t
-
-
-def _contains(mesh: trimesh.Trimesh, point: np.ndarray) -> bool:
-    """True if `point` is inside the closed `mesh` (odd number of crossings of a ray from it,
-    along a direction of our choice that no symmetric lattice mesh has edges along)."""
-    direction = np.array([0.5477, 0.3651, 0.7531])
-    return len(_crossings(mesh, point, direction / np.linalg.norm(direction))) % 2 == 1
-
-
-def _first_hits(mesh: trimesh.Trimesh, origins: np.ndarray, directions: np.ndarray, length: float,
-                facing: float = 0.5, faces_allowed: np.ndarray | None = None) -> np.ndarray:
-    """Distance along each unit ray to the first triangle of `mesh` within `length` (inf if none)
-    that faces along the ray's line (|cos| between its normal and the ray >= `facing`).
-
-    Candidates are the triangles whose boxes meet the box of each ray segment (the
-    mesh's r-tree); each is tested with :func:`_ray_triangle`.  Segments of bounded
-    length keep the candidate sets small, unlike whole rays.  The `facing` test (0.5,
-    i.e. within 60 degrees: our choice) keeps the wall across from a point and skips
-    faces met at a grazing angle, as in the inside corner where a strut meets a lobe.
-    `faces_allowed` (bool per face) restricts the faces that count.
-    """
-    ends = origins + length * directions
-    ids, counts = mesh.triangles_tree.intersection_v(np.minimum(origins, ends), np.maximum(origins, ends))
-    ray = np.repeat(np.arange(len(origins)), counts.astype(np.int64))
-    ids = ids.astype(np.int64)
-    d = directions[ray]
-    t, hit = _ray_triangle(origins[ray], d, mesh.triangles[ids])
-    facing_ok = np.abs(np.einsum("ij,ij->i", mesh.face_normals[ids], d)) >= facing
-    if faces_allowed is not None:
-        facing_ok &= faces_allowed[ids]
-    hit &= facing_ok & (t <= length)
-    distance = np.full(len(origins), np.inf)
-    np.minimum.at(distance, ray[hit], t[hit])
-    return distance
-
-
-def thin_spots(mesh: trimesh.Trimesh, limit_mm: float, kind: str = "wall", samples: int = 4000,
-               search_factor: float = 3.0) -> ThinSpots:
-    """Sample up to `samples` vertices and measure the wall (ray along -normal) or the gap
-    (ray along +normal) to the next surface, up to `search_factor` * `limit_mm`; report
-    those under `limit_mm`.  Vertices with a NaN ``phase`` attribute (struts, base) are
-    not sampled, and gaps are measured to orbital faces only.
-
-    ``minimum_mm`` is the thinnest wall (narrowest gap) found within the search length,
-    None if every sampled wall is thicker than that.
-
-    Examples
-    --------
-    >>> import trimesh
-    >>> ball = trimesh.creation.icosphere(3, radius=0.4)  # 0.8 mm across
-    >>> spots = thin_spots(ball, 1.0, samples=50)
-    >>> spots.below == spots.checked, round(spots.minimum_mm, 1)
-    (True, 0.8)
-    """
-    if kind not in ("wall", "gap"):
-        raise ValueError(f"kind must be 'wall' or 'gap', got {kind!r}")
-    # only the orbital is checked: struts and base (NaN phase) are sized by construction
-    phase = mesh.vertex_attributes.get("phase")
-    orbital = (np.isfinite(phase) if phase is not None and len(phase) == len(mesh.vertices)
-               else np.ones(len(mesh.vertices), bool))
-    candidates = np.flatnonzero(orbital)
-    count = min(samples, len(candidates))
-    index = candidates[np.unique(np.linspace(0, len(candidates) - 1, count).astype(np.int64))]
-    # a gap counts between two orbital faces only, not between the orbital and a strut
-    allowed = np.all(orbital[mesh.faces], axis=1) if kind == "gap" else None
-    normals = mesh.vertex_normals[index]
-    sign = -1.0 if kind == "wall" else 1.0
-    eps = 1e-5 * float(np.max(mesh.extents))  # start just off the surface, clear of its own faces
-    origins = mesh.vertices[index] + sign * eps * normals
-    distance = _first_hits(mesh, origins, sign * normals, search_factor * limit_mm,
-                           faces_allowed=allowed) + eps
-    under = np.flatnonzero(distance < limit_mm)
-    worst = under[np.argsort(distance[under])][:20]
-    finite = distance[np.isfinite(distance)]
-    return ThinSpots(kind, float(limit_mm), int(len(index)), int(len(under)),
-                     float(finite.min()) if len(finite) else None,
-                     tuple(tuple(float(c) for c in mesh.vertices[index[k]]) for k in worst))
