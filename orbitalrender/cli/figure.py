@@ -19,7 +19,7 @@ import numpy as np
 
 from ..atomic import check_writable
 from ..errors import UserInputError
-from ..lattice.memory import require_lattice_memory, require_render_memory, surface_bytes_per_point
+from ..lattice.memory import require_work_memory
 from ..picture.colormap import PHASE_SCHEMES
 from ..picture.layout import default_columns, shell_states, small_multiples, time_strip
 from ..picture.output import default_output_path, figure_format, figure_metadata, save_figure, write_report
@@ -167,9 +167,7 @@ def _check_options(args: argparse.Namespace):
         check_writable(out)
     if args.report:
         check_writable(args.report)
-    dtype = lattice_dtype(args)
-    require_lattice_memory(args.resolution, dtype, extra_bytes_per_point=surface_bytes_per_point(dtype),
-                           what="lattice with its surface")
+    require_work_memory(args.resolution, lattice_dtype(args))
     return size, camera, cutaway, times, out
 
 
@@ -204,8 +202,9 @@ def run(args: argparse.Namespace) -> int:
         probe = fit_geometry(10 * _DEFAULT_PANEL_PX, _DEFAULT_PANEL_PX + 30, 1, 1, True, True, args.dpi)
         width = ncols * _DEFAULT_PANEL_PX + probe.legend_px
         height = nrows * (_DEFAULT_PANEL_PX + probe.title_px)
-    banded = cutaway is None and not args.nodal_axis and args.translucent_outer in (None, 1.0)
-    require_render_memory(width, height, args.supersample, cutaway is not None, banded)  # before any work
+    require_work_memory(render_px=(width, height), supersample=args.supersample,  # before any work
+                        cutaway=cutaway is not None, nodal_axis=args.nodal_axis,
+                        translucent_outer=args.translucent_outer)
     if args.nodal_axis and len(states) == 1:
         state_nodal_axis_centre(states[0])  # refuse before any work
     if out is None:

@@ -9,6 +9,7 @@ when every failed output failed because of its input; 1 otherwise.
 from __future__ import annotations
 
 import argparse
+import math
 import sys
 
 from ..gallery.cache import DEFAULT_LIMIT_BYTES
@@ -34,8 +35,8 @@ def _positive_float(text: str) -> float:
         value = float(text)
     except ValueError:
         raise argparse.ArgumentTypeError(f"expected a number, got {text!r}") from None
-    if not value > 0:
-        raise argparse.ArgumentTypeError(f"expected a positive number, got {text}")
+    if not (value > 0 and math.isfinite(value)):
+        raise argparse.ArgumentTypeError(f"expected a positive finite number, got {text}")
     return value
 
 
@@ -73,8 +74,11 @@ def run(args: argparse.Namespace) -> int:
                          resolution_cap=args.resolution_cap, size_cap_px=args.size_cap,
                          progress=None if args.quiet else sys.stderr)
     made = len(result.records) - len(result.failed)
-    print(f"made {made} of {len(result.records)} outputs in {result.out_dir} in {result.seconds:.1f} s; "
-          f"index: {result.index_path}")
+    for note in result.stats.notes:
+        print(f"orbitalrender gallery: warning: {note}", file=sys.stderr)
+    kept = f" ({result.stats.kept} unchanged, kept)" if result.stats.kept else ""
+    print(f"made {made} of {len(result.records)} outputs{kept} in {result.out_dir} in "
+          f"{result.seconds:.1f} s; index: {result.index_path}")
     if not result.failed:
         return 0
     for rec in result.failed:

@@ -18,7 +18,7 @@ import numpy as np
 
 from ..atomic import check_writable
 from ..errors import UserInputError
-from ..lattice.memory import require_lattice_memory, surface_bytes_per_point
+from ..lattice.memory import require_work_memory
 from ..mesh.export import length_scale, mesh_suffix
 from ..mesh.pipeline import export_mesh
 from ..mesh.printable import (
@@ -97,9 +97,7 @@ def _check_options(args: argparse.Namespace) -> tuple[Path, str]:
                              "with --printable or --parts")
     if args.cutaway and not args.printable:
         raise UserInputError("--cutaway is part of --printable")
-    dtype = lattice_dtype(args)
-    require_lattice_memory(args.resolution, dtype, extra_bytes_per_point=surface_bytes_per_point(dtype),
-                           what="lattice with its surface")
+    require_work_memory(args.resolution, lattice_dtype(args))
     return out, suffix
 
 

@@ -11,7 +11,6 @@ the command's output agree.
 
 from __future__ import annotations
 
-import hashlib
 import time
 import traceback
 from collections.abc import Callable
@@ -27,11 +26,20 @@ from ..lattice.sampler import PRECISIONS, default_box
 from ..state.model import State
 from ..surface.level import LevelResult
 from ..surface.model import Surface
-from .cache import CacheStats, DiskCache, cached_lattice, cached_level, cached_surface, level_key, surface_key
+from .cache import (
+    CacheStats,
+    DiskCache,
+    cached_lattice,
+    cached_level,
+    cached_surface,
+    file_sha256,
+    level_key,
+    surface_key,
+)
 from .config import OutputSpec
 
 __all__ = ["Caps", "Request", "OutputRecord", "requests_for", "make_request", "make_output",
-           "THUMBNAIL_PX", "INDEX_FOLDER", "COMMAND_OF", "option"]
+           "THUMBNAIL_PX", "INDEX_FOLDER", "COMMAND_OF", "option", "check_memory", "failure_text"]
 
 #: Longer side of the thumbnails on the index page, px.
 THUMBNAIL_PX = 320
@@ -81,18 +89,10 @@ def _box(spec: OutputSpec, state: State | None) -> Box | None:
     return Box(default_box(state).centre_a0, spec.options["box_a0"])
 
 
-def _file_sha256(path: str) -> str:
-    h = hashlib.sha256()
-    with open(path, "rb") as fh:
-        for block in iter(lambda: fh.read(1 << 20), b""):
-            h.update(block)
-    return h.hexdigest()
-
-
 def _field_description(spec: OutputSpec) -> tuple:
     path = spec.options["field"]
     return (path, spec.options.get("field_spacing_a0"), spec.options.get("field_origin_a0"),
-            _file_sha256(path))
+            file_sha256(path))
 
 
 def _field_parts(field_desc: tuple) -> dict:
@@ -294,6 +294,43 @@ def _picture_thumbnail(fig, path: Path) -> Callable[[Path], None]:
     return _png_thumbnail(path) if path.suffix.lower() == ".png" else _figure_thumbnail(fig)
 
 
+def failure_text(exc: BaseException) -> str:
+    """One line for a failed output: the message of an input error; for a fault inside the
+    tool its type, message and the place it was raised (file:line in function)."""
+    if isinstance(exc, _USER_ERRORS):
+        return str(exc)
+    frames = traceback.extract_tb(exc.__traceback__)
+    last = frames[-1] if frames else None
+    where = f" (at {Path(last.filename).name}:{last.lineno} in {last.name})" if last else ""
+    return f"{type(exc).__name__}: {exc}{where}".replace("\n", " ")
+
+
+def check_memory(spec: OutputSpec, caps: Caps = Caps()) -> None:
+    """Raise MemoryLimitError, before any work, if a step of `spec` would not fit in memory:
+    the same estimate as the commands make (:func:`~orbitalrender.lattice.memory.require_work_memory`)."""
+    from ..lattice.memory import require_work_memory
+
+    if spec.kind not in ("figure", "layout", "mesh"):
+        return  # sections and radial plots are bounded by their pixel limits
+    o = spec.options
+    resolution = None if "field" in o else caps.lattice(int(option(spec, "resolution")))
+    dtype = PRECISIONS[option(spec, "precision")]
+    if spec.kind == "mesh":
+        require_work_memory(resolution, dtype)
+        return
+    work = _Work(spec, Path("."), DiskCache(None), caps, CacheStats())
+    if spec.kind == "figure":
+        size = caps.size(o.get("width_px", _FIGURE_SIZE[0]), o.get("height_px", _FIGURE_SIZE[1]))
+    else:
+        from ..picture.layout import default_columns
+
+        count = len(spec.states)
+        size = _layout_size(work, count, count if "times" in o else o.get("columns", default_columns(count)))
+    require_work_memory(resolution, dtype, render_px=size, supersample=work.opt("supersample"),
+                        cutaway="cutaway" in o, nodal_axis=o.get("nodal_axis", False),
+                        translucent_outer=o.get("translucent_outer"))
+
+
 def make_output(spec: OutputSpec, out_dir: Path, cache: DiskCache,
                 caps: Caps = Caps()) -> tuple[OutputRecord, CacheStats]:
     """Draw and write one output with its report and thumbnail; never raises for a bad output."""
@@ -317,10 +354,7 @@ def make_output(spec: OutputSpec, out_dir: Path, cache: DiskCache,
         else:
             thumb = None
     except Exception as exc:  # noqa: BLE001 - one failed output must not stop the others
-        message = f"{type(exc).__name__}: {exc}" if not isinstance(exc, _USER_ERRORS) else str(exc)
-        if not isinstance(exc, _USER_ERRORS):
-            message += " | " + traceback.format_exc(limit=-1).strip().splitlines()[-2].strip()
-        return (OutputRecord(spec, path, report_path, None, time.perf_counter() - t0, message,
+        return (OutputRecord(spec, path, report_path, None, time.perf_counter() - t0, failure_text(exc),
                              isinstance(exc, _USER_ERRORS)), stats)
     return OutputRecord(spec, path, report_path, thumb, time.perf_counter() - t0,
                         report=report), stats

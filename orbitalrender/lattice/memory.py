@@ -8,7 +8,7 @@ import numpy as np
 
 __all__ = ["MemoryLimitError", "available_bytes", "sampling_bytes", "largest_resolution",
            "require_lattice_memory", "require_bytes", "surface_bytes_per_point", "surface_bytes",
-           "render_bytes", "require_surface_memory", "require_render_memory"]
+           "render_bytes", "require_surface_memory", "require_render_memory", "require_work_memory"]
 
 # Bytes per lattice point that the sampler may need on top of the output array: a
 # margin of 1/8 of the output plus the chunk temporaries of the slab-by-slab path,
@@ -167,3 +167,25 @@ def require_bytes(needed_bytes: int, what: str) -> None:
         raise MemoryLimitError(
             f"{what} needs about {needed_bytes / _GIB:.1f} GiB but only "
             f"{budget / _GIB:.1f} GiB can be used")
+
+
+def require_work_memory(resolution: int | None = None, dtype=np.complex64, *,
+                        render_px: tuple[int, int] | None = None, supersample: int = 3,
+                        cutaway: bool = False, nodal_axis: bool = False,
+                        translucent_outer: float | None = None) -> None:
+    """Before any work, the estimate of every step of one picture or mesh, as the commands
+    and the gallery make it: an N^3 lattice with its surface (`resolution`; None when the
+    lattice is a user's file), then one render of `render_px` (width, height) with the
+    given view options.  Raises MemoryLimitError naming what does not fit.
+
+    Examples
+    --------
+    >>> require_work_memory(16, render_px=(64, 48), supersample=1)   # fits anywhere
+    """
+    if resolution is not None:
+        require_lattice_memory(resolution, dtype, extra_bytes_per_point=surface_bytes_per_point(dtype),
+                               what="lattice with its surface")
+    if render_px is not None:
+        # an opaque scene without cut, axis line or translucency is rendered band by band
+        banded = not cutaway and not nodal_axis and translucent_outer in (None, 1.0)
+        require_render_memory(*render_px, supersample, cutaway, banded)
