@@ -190,10 +190,14 @@ def make_request(req: Request, cache: DiskCache) -> tuple[CacheStats, float, str
     """Make (or find) one surface or level in the cache; returns (counts, seconds, what was done).
 
     A failure is not raised here: the output that needs it fails when it is drawn, with
-    the same message, and the others go on.
+    the same message, and the others go on.  An entry already on disk is not read here:
+    the drawing reads (and verifies) it, and makes it again if it is damaged.
     """
     t0 = time.perf_counter()
     stats = CacheStats()
+    stored = cache.entry(req.what, req.key, ".npz" if req.what == "surface" else ".json")
+    if stored is not None and stored.is_file():
+        return stats, time.perf_counter() - t0, "cached"
     try:
         (_surface if req.what == "surface" else _level)(req, cache, stats)
     except Exception as exc:  # noqa: BLE001 - reported by the output that needs it
