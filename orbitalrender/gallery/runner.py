@@ -437,6 +437,8 @@ def run_gallery(config: GalleryConfig | str | os.PathLike, out_dir: str | os.Pat
             # an interrupt or a fault: no worker may go on writing, and none of their files stay
             if workers is not None:
                 workers.stop()
+            if _Progress(progress, 0, "").tty:
+                progress.write("\n")  # end the progress bar's line before the message that follows
             clean_outputs()
             if folder is not None:
                 folder.clean_if_alone()
