@@ -311,16 +311,19 @@ def failure_text(exc: BaseException) -> str:
 
 def check_memory(spec: OutputSpec, caps: Caps = Caps()) -> None:
     """Raise MemoryLimitError, before any work, if a step of `spec` would not fit in memory:
-    the same estimate as the commands make (:func:`~orbitalrender.lattice.memory.require_work_memory`)."""
-    from ..lattice.memory import require_work_memory
+    the estimates the commands make, from the same functions
+    (:func:`~orbitalrender.lattice.memory.require_lattice_and_surface_memory` for the lattice
+    with its surface, :func:`~orbitalrender.picture.scene.require_render_memory` for a picture)."""
+    from ..lattice.memory import require_lattice_and_surface_memory
+    from ..picture.scene import render_path, require_render_memory
 
     if spec.kind not in ("figure", "layout", "mesh"):
         return  # sections and radial plots are bounded by their pixel limits
     o = spec.options
-    resolution = None if "field" in o else caps.lattice(int(option(spec, "resolution")))
-    dtype = PRECISIONS[option(spec, "precision")]
+    if "field" not in o:  # a user field is checked when it is read
+        require_lattice_and_surface_memory(caps.lattice(int(option(spec, "resolution"))),
+                                           PRECISIONS[option(spec, "precision")])
     if spec.kind == "mesh":
-        require_work_memory(resolution, dtype)
         return
     work = _Work(spec, Path("."), DiskCache(None), caps, CacheStats())
     if spec.kind == "figure":
@@ -330,9 +333,9 @@ def check_memory(spec: OutputSpec, caps: Caps = Caps()) -> None:
 
         count = len(spec.states)
         size = _layout_size(work, count, count if "times" in o else o.get("columns", default_columns(count)))
-    require_work_memory(resolution, dtype, render_px=size, supersample=work.opt("supersample"),
-                        cutaway="cutaway" in o, nodal_axis=o.get("nodal_axis", False),
-                        translucent_outer=o.get("translucent_outer"))
+    path = render_path(cutaway="cutaway" in o, nodal_axis=o.get("nodal_axis", False),
+                       translucent_outer=o.get("translucent_outer"))
+    require_render_memory(*size, work.opt("supersample"), path)
 
 
 def make_output(spec: OutputSpec, out_dir: Path, cache: DiskCache,
@@ -404,7 +407,8 @@ def option(spec: OutputSpec, key: str) -> Any:
 
 
 def _render_options(work: _Work) -> dict[str, Any]:
-    from ..picture.render3d import Camera, parse_cutaway
+    from ..picture.camera import Camera
+    from ..picture.cutaway import parse_cutaway
 
     o = work.spec.options
     camera = Camera(option(work.spec, "azimuth_deg"), option(work.spec, "elevation_deg"),
@@ -447,8 +451,8 @@ def _save(work: _Work, fig, path: Path, metadata: dict) -> tuple[dict, Callable[
 
 @_drawer("figure")
 def _draw_figure(work: _Work, path: Path):
+    from ..picture.compose import figure_3d
     from ..picture.output import figure_metadata
-    from ..picture.render3d import figure_3d
 
     surface = work.surfaces()[0]
     size = work.caps.size(work.spec.options.get("width_px", _FIGURE_SIZE[0]),
@@ -471,7 +475,7 @@ _PANEL_PX = 380
 
 
 def _layout_size(work: _Work, count: int, ncols: int) -> tuple[int, int]:
-    from ..picture.render3d import fit_geometry
+    from ..picture.compose import fit_geometry
 
     o = work.spec.options
     if "width_px" in o and "height_px" in o:
@@ -486,9 +490,9 @@ def _layout_size(work: _Work, count: int, ncols: int) -> tuple[int, int]:
 
 @_drawer("layout")
 def _draw_layout(work: _Work, path: Path):
+    from ..picture.compose import surface_title
     from ..picture.layout import default_columns, small_multiples
     from ..picture.output import figure_metadata
-    from ..picture.render3d import surface_title
 
     o = work.spec.options
     surfaces = work.surfaces()
@@ -518,7 +522,10 @@ def _draw_layout(work: _Work, path: Path):
 def _draw_section(work: _Work, path: Path):
     from dataclasses import replace
 
-    from ..picture.section import cross_section, plane, section_figure, section_metadata
+    from ..picture.nodal import section_lines
+    from ..picture.plane import plane
+    from ..picture.section import cross_section
+    from ..picture.section_figure import section_figure, section_metadata
 
     o = work.spec.options
     where = plane(o.get("normal") or o.get("plane", "xz"), option(work.spec, "offset_a0"))
@@ -532,11 +539,12 @@ def _draw_section(work: _Work, path: Path):
         section = replace(section, level=level.level, fraction_requested=level.fraction_requested,
                           fraction_enclosed=level.fraction_enclosed,
                           fraction_error=level.fraction_error, level_method=level.method)
-    nodes = o.get("nodes", True)
-    style = (work.opt("phase_map"), work.opt("scale"), work.opt("decades"), work.opt("units"), nodes)
+    lines = section_lines(section, nodes=o.get("nodes", True))
+    style = dict(scheme=work.opt("phase_map"), scale=work.opt("scale"), decades=work.opt("decades"),
+                 units=work.opt("units"))
     label = state.label if state is not None else Path(o["field"]).stem
-    fig = section_figure(section, *style[:4], nodes=nodes, title=o.get("title"), label=label)
-    md = section_metadata(section, *style, source=o.get("field"), dpi=work.opt("dpi"))
+    fig = section_figure(section, lines, **style, title=o.get("title"), label=label)
+    md = section_metadata(section, lines, **style, source=o.get("field"), dpi=work.opt("dpi"))
     return _save(work, fig, path, md)
 
 
@@ -561,8 +569,8 @@ def _quantity_text(value: str | list[str]) -> str:
 def _render_thumbnail(surface: Surface, phase_map: str) -> Callable[[Path], None]:
     """A thumbnail maker that renders `surface` small with the project's renderer (for meshes)."""
     def make(target: Path) -> None:
+        from ..picture.compose import figure_3d
         from ..picture.output import save_figure
-        from ..picture.render3d import figure_3d
 
         fig, _ = figure_3d(surface, THUMBNAIL_PX, THUMBNAIL_PX, dpi=100.0, title="", legend=False,
                            scale_bar=False, phase_map=phase_map, supersample=2)
@@ -571,7 +579,7 @@ def _render_thumbnail(surface: Surface, phase_map: str) -> Callable[[Path], None
 
 
 def _mesh_print_options(work: _Work):
-    from ..mesh.printable import PrintOptions
+    from ..mesh.print_options import PrintOptions
 
     cut = work.spec.options.get("print_cutaway", False)
     return PrintOptions(work.opt("min_thickness_mm"), work.opt("min_gap_mm"), work.opt("strut_fraction"),
