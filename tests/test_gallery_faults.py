@@ -1,5 +1,5 @@
 """Real faults during a gallery run in a subprocess: a worker killed with SIGKILL (once, and
-every time), and SIGINT to the main process.
+every time), and SIGINT or SIGTERM to the main process.
 
 The worker processes are found as the grandchildren of the gallery's process (its child
 is the forkserver, which forks the workers), by reading parent pids from /proc (Linux).
@@ -162,17 +162,21 @@ state = "{label}"
 """ for label in ("3dz2", "4fxyz", "3dxy", "4fz3", "3px", "4dz2"))
 
 
-def test_sigint_stops_the_workers_and_exits_130_with_one_line(tmp_path):
+@pytest.mark.parametrize("sig, status, line", [
+    (signal.SIGINT, 130, "orbitalrender: interrupted"),
+    (signal.SIGTERM, 143, "orbitalrender gallery: terminated"),
+])
+def test_sigint_or_sigterm_stops_the_workers_at_once_with_one_line(tmp_path, sig, status, line):
     proc, out = _start(tmp_path, SLOW, "--quiet")
     workers = _wait_for_workers(proc, 2)
     time.sleep(1.0)  # let them start computing
     assert proc.poll() is None, "the run ended before it could be interrupted"
     t0 = time.monotonic()
-    proc.send_signal(signal.SIGINT)
+    proc.send_signal(sig)
     stdout, err = proc.communicate(timeout=600)
-    print(f"exit {time.monotonic() - t0:.2f} s after SIGINT")  # measured, not asserted
-    assert proc.returncode == 130
-    assert err.strip().splitlines() == ["orbitalrender: interrupted"]
+    print(f"exit {time.monotonic() - t0:.2f} s after signal {sig}")  # measured, not asserted
+    assert proc.returncode == status
+    assert err.strip().splitlines() == [line]
     for _ in range(100):  # a guard: the workers are ended before the main process returns
         if not any(_alive(w) for w in workers):
             break

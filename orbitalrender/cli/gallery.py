@@ -9,8 +9,11 @@ when every failed output failed because of its input; 1 otherwise.
 from __future__ import annotations
 
 import argparse
+import contextlib
 import math
+import signal
 import sys
+import threading
 
 from ..gallery.cache import DEFAULT_LIMIT_BYTES
 from ..gallery.runner import CACHE_FOLDER, default_jobs, run_gallery
@@ -67,12 +70,39 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     p.set_defaults(run=run)
 
 
+class _Terminated(BaseException):
+    """SIGTERM arrived: unwinds like an interrupt, so the run stops its workers and removes
+    their temporary files (a BaseException, so no ``except Exception`` swallows it)."""
+
+
+def _terminate(signum, frame) -> None:
+    raise _Terminated
+
+
+@contextlib.contextmanager
+def _sigterm_unwinds():
+    if threading.current_thread() is not threading.main_thread():  # only the main thread may
+        yield  # set handlers; a caller in another thread keeps its own
+        return
+    previous = signal.signal(signal.SIGTERM, _terminate)
+    try:
+        yield
+    finally:
+        signal.signal(signal.SIGTERM, previous)
+
+
 def run(args: argparse.Namespace) -> int:
-    """Run the gallery and report what was made."""
-    result = run_gallery(args.config, args.out, jobs=args.jobs, use_cache=not args.no_cache,
-                         cache_dir=args.cache_dir, cache_limit_bytes=int(args.cache_limit_gib * _GIB),
-                         resolution_cap=args.resolution_cap, size_cap_px=args.size_cap,
-                         progress=None if args.quiet else sys.stderr)
+    """Run the gallery and report what was made.  SIGTERM ends it as Ctrl-C does, with status
+    143 (128 + SIGTERM, the shells' convention)."""
+    try:
+        with _sigterm_unwinds():
+            result = run_gallery(args.config, args.out, jobs=args.jobs, use_cache=not args.no_cache,
+                                 cache_dir=args.cache_dir, cache_limit_bytes=int(args.cache_limit_gib * _GIB),
+                                 resolution_cap=args.resolution_cap, size_cap_px=args.size_cap,
+                                 progress=None if args.quiet else sys.stderr)
+    except _Terminated:
+        print("orbitalrender gallery: terminated", file=sys.stderr)
+        return 128 + signal.SIGTERM
     made = len(result.records) - len(result.failed)
     for note in result.stats.notes:
         print(f"orbitalrender gallery: warning: {note}", file=sys.stderr)
