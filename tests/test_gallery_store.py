@@ -268,3 +268,24 @@ def test_marker_and_kind_folders_are_all_a_new_cache_holds(tmp_path):
     assert sorted(p.name for p in cache_dir.iterdir()) == sorted((MARKER, *CACHE_KINDS))
     assert not any(is_temporary_name(p.name) for p in cache_dir.rglob("*"))
     assert os.access(cache_dir / MARKER, os.R_OK)
+
+
+def test_temporaries_a_killed_run_left_in_the_output_folder_are_removed_next_run(tmp_path):
+    out = tmp_path / "out"
+    writer = """
+        import sys, time
+        from pathlib import Path
+        from orbitalrender.atomic import atomic_path
+        with atomic_path(Path(sys.argv[1]) / "p.png") as tmp:
+            tmp.write_bytes(b"half a picture")
+            print("ready", flush=True)
+            time.sleep(600)
+    """
+    out.mkdir()
+    _killed_writer(out, writer)
+    (left,) = [p for p in out.iterdir() if ".part" in p.name]
+    mine = out / ".notes.part.txt"  # the user's file, whatever its name: not a temporary of ours
+    mine.write_text("keep")
+    res = run_gallery(_config(tmp_path), out, jobs=1)
+    assert res.failed == () and not left.exists() and mine.read_text() == "keep"
+    assert [p.name for p in out.rglob("*") if ".part" in p.name] == [mine.name]

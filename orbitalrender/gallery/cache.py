@@ -123,12 +123,18 @@ class DiskCache:
     folder: Path | None
     limit_bytes: int = DEFAULT_LIMIT_BYTES
 
-    def entry(self, kind: str, key: str, suffix: str) -> Path | None:
+    def entry(self, kind: str, key: str, suffix: str | None = None) -> Path | None:
+        """The path of entry `key` of `kind` (its folder made if missing), None without a folder;
+        `suffix` defaults to the one the kind is stored with."""
         if self.folder is None:
             return None
         sub = self.folder / kind
         sub.mkdir(parents=True, exist_ok=True)
-        return sub / f"{key}{suffix}"
+        return sub / f"{key}{suffix or _SUFFIXES[kind]}"
+
+
+#: How each kind is stored: arrays in an .npz file, a level's numbers in JSON.
+_SUFFIXES = {"lattice": ".npz", "level": ".json", "surface": ".npz"}
 
 
 def canonical_json(value: Any) -> str:
@@ -254,7 +260,7 @@ def _verified(path: Path, kind: str, key: str) -> tuple[Arrays, dict[str, Any]]:
     return arrays, scalars
 
 
-def _lookup(cache: DiskCache, stats: CacheStats, kind: str, key: str, suffix: str,
+def _lookup(cache: DiskCache, stats: CacheStats, kind: str, key: str,
             build: Callable[[Arrays, dict], Any], compute: Callable[[], Any],
             parts: Callable[[Any], tuple[Arrays, dict]]) -> Any:
     """The entry `key` of `kind`: loaded and verified, else computed and stored.
@@ -262,7 +268,7 @@ def _lookup(cache: DiskCache, stats: CacheStats, kind: str, key: str, suffix: st
     `build(arrays, scalars)` makes the value from a verified entry and raises if the
     content is not what an entry of `kind` holds; `parts(value)` is its inverse.
     """
-    path = cache.entry(kind, key, suffix)
+    path = cache.entry(kind, key)
     if path is not None and path.is_file():
         try:
             arrays, scalars = _verified(path, kind, key)
@@ -317,7 +323,7 @@ def cached_lattice(cache: DiskCache, stats: CacheStats, state: State, resolution
         return {"values": lat.values, "origin_a0": np.array(lat.origin_a0, dtype=float),
                 "spacing_a0": np.array(lat.spacing_a0, dtype=float)}, {}
 
-    return _lookup(cache, stats, "lattice", key, ".npz", build,
+    return _lookup(cache, stats, "lattice", key, build,
                    lambda: sample(state, resolution, box, dtype), parts)
 
 
@@ -368,7 +374,7 @@ def cached_level(cache: DiskCache, stats: CacheStats, source: State | dict, frac
     """
     key = level_key(source, fraction)
     compute = compute or (lambda: level_for_fraction(source, fraction))
-    return _lookup(cache, stats, "level", key, ".json",
+    return _lookup(cache, stats, "level", key,
                    lambda arrays, scalars: _level_result(scalars, fraction), compute,
                    lambda res: ({}, dict(res.__dict__)))
 
@@ -413,6 +419,6 @@ def cached_surface(cache: DiskCache, stats: CacheStats, source: State | dict, fr
     """
     key = surface_key(source, fraction, resolution, box, dtype, level_rule)
     state = source if isinstance(source, State) else None
-    return _lookup(cache, stats, "surface", key, ".npz",
+    return _lookup(cache, stats, "surface", key,
                    lambda arrays, scalars: _surface_from(arrays, scalars, state), compute,
                    _surface_parts)

@@ -195,7 +195,7 @@ def make_request(req: Request, cache: DiskCache) -> tuple[CacheStats, float, str
     """
     t0 = time.perf_counter()
     stats = CacheStats()
-    stored = cache.entry(req.what, req.key, ".npz" if req.what == "surface" else ".json")
+    stored = cache.entry(req.what, req.key)
     if stored is not None and stored.is_file():
         return stats, time.perf_counter() - t0, "cached"
     try:
