@@ -55,6 +55,7 @@ from ..lattice.sampler import default_box, sample
 from ..state.model import State
 from ..surface.level import LevelResult, level_for_fraction
 from ..surface.model import Surface
+from .options import DEFAULT_LIMIT_GIB
 from .store import CACHE_KINDS
 
 __all__ = ["CACHE_FORMAT", "DEFAULT_LIMIT_BYTES", "CACHE_KINDS", "CacheStats", "DiskCache",
@@ -64,7 +65,7 @@ __all__ = ["CACHE_FORMAT", "DEFAULT_LIMIT_BYTES", "CACHE_KINDS", "CacheStats", "
 #: Bumped when the layout of the stored files changes (2: entries carry a content hash).
 CACHE_FORMAT = 2
 #: Default size bound of a cache folder: 2 GiB (about 128 lattices of 128^3 complex64).
-DEFAULT_LIMIT_BYTES = 2 * 1024**3
+DEFAULT_LIMIT_BYTES = int(DEFAULT_LIMIT_GIB * 1024**3)
 #: Subpackages whose source decides each kind of entry.
 _SOURCES = {
     "lattice": ("state", "lattice"),

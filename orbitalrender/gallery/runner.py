@@ -45,6 +45,7 @@ from ..atomic import check_writable
 from ..lattice.memory import MemoryLimitError
 from .cache import DEFAULT_LIMIT_BYTES, CacheStats, DiskCache, file_sha256
 from .config import GalleryConfig, OutputSpec, load_config
+from .options import CACHE_FOLDER, default_jobs
 from .produce import (
     INDEX_FOLDER,
     Caps,
@@ -60,8 +61,7 @@ from .store import evict, open_folder, output_folder, scratch_folder
 
 __all__ = ["OutputRecord", "GalleryResult", "run_gallery", "default_jobs", "CACHE_FOLDER"]
 
-#: Name of the cache folder inside the output folder.
-CACHE_FOLDER = ".cache"
+#: Width of the progress bar, characters.
 _BAR_WIDTH = 24
 #: How long stopped workers get to end on SIGTERM before SIGKILL, s (our choice: well
 #: inside the 2 s in which an interrupted command should be back at the prompt).
@@ -70,15 +70,6 @@ _STOP_SECONDS = 0.5
 _SHARED_ATTEMPTS = 2
 _LOST = ("the worker process making it ended unexpectedly (killed by a signal or out of memory), "
          "also when run again alone")
-
-
-def default_jobs() -> int:
-    """min(2, number of usable cores)."""
-    try:
-        cores = len(os.sched_getaffinity(0))
-    except AttributeError:  # not on Linux
-        cores = os.cpu_count() or 1
-    return max(1, min(2, cores))
 
 
 @dataclass(frozen=True)
