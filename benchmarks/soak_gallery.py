@@ -26,9 +26,10 @@ from pathlib import Path
 import matplotlib.pyplot as plt
 from _proc import status_kib
 
-from orbitalrender.gallery.cache import DiskCache, evict
+from orbitalrender.gallery.cache import DiskCache
 from orbitalrender.gallery.config import parse_config
 from orbitalrender.gallery.produce import Caps, make_output, make_request, requests_for
+from orbitalrender.gallery.store import evict
 
 _MIB = 2**20
 _STATES = ["1s", "2s", "2pz", "2px", "2,1,1", "3s", "3pz", "3dz2", "3dxy", "3,2,1", "3,2,2", "3dx2-y2",
@@ -86,7 +87,7 @@ def main(count: int = 50, cache_limit_mib: float = 64.0) -> None:
             if record.error is not None:
                 failed += 1
                 print(f"  {spec.name} failed: {record.error}")
-            evict(cache)
+            evict(cache.folder, cache.limit_bytes)
             if i % 10 == 0 or i == count:
                 gc.collect()
                 rss = status_kib("VmRSS") / 1024

@@ -15,10 +15,10 @@ from orbitalrender.gallery.cache import (
     cached_level,
     cached_surface,
     canonical_json,
-    evict,
     level_key,
     surface_key,
 )
+from orbitalrender.gallery.store import evict
 from orbitalrender.lattice.grid import Box
 from orbitalrender.lattice.sampler import default_box, sample
 from orbitalrender.state.model import eigenstate, real_orbital
@@ -104,7 +104,7 @@ def test_unreadable_entry_is_recomputed(tmp_path):
     stats = CacheStats()
     cached_level(cache, stats, state, 0.3)
     assert stats.computed["level"] == 1
-    assert json.loads(cache.entry("level", key, ".json").read_text())["fraction_requested"] == 0.3
+    assert json.loads(cache.entry("level", key, ".json").read_text())["scalars"]["fraction_requested"] == 0.3
 
 
 def test_no_folder_stores_nothing():
@@ -123,6 +123,6 @@ def test_eviction_removes_least_recently_used_first(tmp_path):
         os.utime(p, ns=(10**18 + i * 10**9,) * 2)
         files.append(p)
     os.utime(files[0], ns=(2 * 10**18,) * 2)  # the oldest file was used last
-    assert evict(cache) == 2
+    assert evict(cache.folder, cache.limit_bytes) == 2
     assert [p.exists() for p in files] == [True, False, False, True]
-    assert evict(cache) == 0
+    assert evict(cache.folder, cache.limit_bytes) == 0

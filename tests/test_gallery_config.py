@@ -160,3 +160,24 @@ def test_layout_of_a_shell():
 def test_parse_config_accepts_a_dict():
     cfg = parse_config({"outputs": [{"name": "m", "kind": "mesh", "state": "2pz", "file": "m.glb"}]})
     assert cfg.outputs[0].file == "m.glb"
+
+
+def test_a_control_character_in_a_file_name_is_refused(tmp_path):
+    # TOML's "\u0000" escape puts a real NUL into the string (TOML 1.0, basic strings)
+    for escape in ("\\u0000", "\\u001b", "\\t"):
+        text = f'[[outputs]]\nname = "a"\nkind = "radial"\nstates = ["1s"]\nfile = "a{escape}b.png"\n'
+        assert "key 'file' must be a relative file name" in _message(tmp_path, text)
+
+
+@pytest.mark.parametrize("first, second", [("a.png", "a.png/b.png"), ("a.png/b.png", "a.png"),
+                                           ("sub/A.png", "sub/a.png/c.png")])
+def test_a_file_that_would_have_to_be_a_folder_of_another_is_refused(tmp_path, first, second):
+    text = (f'[[outputs]]\nname = "one"\nkind = "radial"\nstates = ["1s"]\nfile = "{first}"\n'
+            f'[[outputs]]\nname = "two"\nkind = "radial"\nstates = ["1s"]\nfile = "{second}"\n')
+    message = _message(tmp_path, text)
+    assert "output 'two' (outputs[1]): key 'file' must not nest with another output's file" in message
+    # and the command line calls it an input mistake, before any output is made
+    from orbitalrender.cli import main
+
+    assert main(["gallery", str(_write(tmp_path, text)), "--out", str(tmp_path / "out"), "--quiet"]) == 2
+    assert not (tmp_path / "out").exists()

@@ -35,6 +35,14 @@ def test_demo_config_runs_in_draft_mode(config, tmp_path):
             assert report["components"] == 1 and report["watertight"]
     index = (tmp_path / "index.html").read_text()
     assert all(f'id="{r.spec.name}"' in index for r in result.records)
+    # a rerun with nothing changed keeps every output as it is, byte for byte; one made
+    # again (its file deleted) comes out byte-identical
+    made = {r.path: r.path.read_bytes() for r in result.records}
+    first = result.records[0].path
+    first.unlink()
+    again = run_gallery(cfg, tmp_path, jobs=2, resolution_cap=32, size_cap_px=480)
+    assert again.stats.drawn == 1 and again.stats.kept == len(result.records) - 1
+    assert {r.path: r.path.read_bytes() for r in again.records} == made
 
 
 FAIR = Path(__file__).resolve().parent.parent / "gallery_configs" / "bramblecombe-fair-models.toml"

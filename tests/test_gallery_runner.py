@@ -12,6 +12,7 @@ import pytest
 from orbitalrender.cli import main
 from orbitalrender.gallery.config import ConfigError
 from orbitalrender.gallery.runner import run_gallery
+from orbitalrender.gallery.store import CACHE_KINDS
 
 # Small lattices and pictures keep the suite fast; the numbers drawn are not checked here
 # (the surface, section, radial and mesh tests do that against closed forms).
@@ -112,7 +113,8 @@ def test_second_run_with_other_style_only_draws(first_run, tmp_path):
     assert result.failed == ()
     assert result.stats.computed == {"lattice": 0, "level": 0, "surface": 0}
     assert result.stats.loaded["surface"] >= 2
-    assert result.stats.drawn == 5
+    # the radial plot takes no phase map or view: its inputs are unchanged and it is kept
+    assert result.stats.drawn == 4 and result.stats.kept == 1
     after = _pngs(tmp / "out")
     assert after["p.png"] != before["p.png"]  # drawn again, in the new style
 
@@ -199,7 +201,8 @@ def test_no_cache_keeps_no_cache_folder_and_the_bound_is_kept(tmp_path):
     res = run_gallery(cfg, tmp_path / "a", jobs=1, use_cache=False)
     assert res.failed == () and not (tmp_path / "a" / ".cache").exists()
     res = run_gallery(cfg, tmp_path / "b", jobs=1, cache_limit_bytes=1)
-    sizes = [p.stat().st_size for p in (tmp_path / "b" / ".cache").rglob("*") if p.is_file()]
+    # the bound holds for the entries (the folder's marker file is not an entry)
+    sizes = [p.stat().st_size for kind in CACHE_KINDS for p in (tmp_path / "b" / ".cache" / kind).iterdir()]
     assert sum(sizes) <= 1
 
 
@@ -225,3 +228,61 @@ def test_progress_on_a_terminal_is_one_line_redrawn(tmp_path):
     # carriage returns redraw the bar; a newline only when the phase is complete
     assert shown.count("\n") == 1 and shown.count("\r") >= 4
     assert "2/2 drawing" in shown and "[" + "#" * 24 + "]" in shown
+
+
+# A 1024^3 double lattice with its surface needs 1024^3 * (16 * 1.125 + 20) B = 38 GiB, and an
+# 8192^2 px render with a cut at supersampling 4 about 100 GiB (lattice.memory's estimates).
+_TOO_BIG = {
+    "lattice": 'resolution = 1024\nprecision = "double"\nwidth_px = 240\nheight_px = 200',
+    "render": 'resolution = 24\nwidth_px = 8192\nheight_px = 8192\nsupersample = 4\ncutaway = "front"',
+}
+
+
+@pytest.mark.parametrize("step", sorted(_TOO_BIG))
+def test_an_output_too_big_for_memory_fails_before_any_work_and_the_others_are_made(tmp_path, capsys, step):
+    text = ('[[outputs]]\nname = "huge"\nkind = "figure"\nstate = "2pz"\n' + _TOO_BIG[step] +
+            '\n[[outputs]]\nname = "small"\nkind = "radial"\nstates = ["1s"]\ndpi = 40\n')
+    cfg = _config(tmp_path, text)
+    res = run_gallery(cfg, tmp_path / "out", jobs=1)
+    (failed,) = res.failed
+    assert failed.spec.name == "huge" and failed.user_error and "GiB" in failed.error
+    assert ("render" in failed.error) == (step == "render")
+    assert sum(res.stats.computed.values()) == 0  # no lattice, level or surface was begun
+    assert (tmp_path / "out" / "small.png").is_file()
+    assert main(["gallery", str(cfg), "--out", str(tmp_path / "out"), "--quiet"]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "output 'huge'" in err[0] and "needs about" in err[0]
+
+
+def test_an_internal_fault_is_one_line_naming_where_it_was_raised():
+    from orbitalrender.gallery.produce import failure_text
+
+    try:
+        {}["missing"]
+    except KeyError as exc:
+        text = failure_text(exc)
+    assert text.startswith("KeyError: 'missing' (at test_gallery_runner.py:")
+    assert "\n" not in text and "^" not in text  # no caret line of the traceback
+
+
+def test_progress_names_each_output_once(tmp_path):
+    text = ('[[outputs]]\nname = "a"\nkind = "radial"\nstates = ["1s"]\ndpi = 40\n'
+            '[[outputs]]\nname = "b"\nkind = "radial"\nstates = ["2s"]\ndpi = 40\nfile = "plots/two.png"\n')
+    stream = io.StringIO()
+    run_gallery(_config(tmp_path, text), tmp_path / "out", jobs=1, progress=stream)
+    lines = stream.getvalue().splitlines()
+    named = [ln.split(": ", 1)[1].rsplit(" (", 1)[0] for ln in lines]
+    assert named == ["a.png", "b (plots/two.png)"]
+
+
+@pytest.mark.parametrize("limit", ["inf", "nan", "-1", "0"])
+def test_a_cache_limit_that_is_not_a_positive_finite_number_is_refused(tmp_path, capsys, limit):
+    cfg = _config(tmp_path, '[[outputs]]\nname = "a"\nkind = "radial"\nstates = ["1s"]\n')
+    try:
+        status = main(["gallery", str(cfg), "--out", str(tmp_path / "out"), "--cache-limit-gib", limit])
+    except SystemExit as exc:  # argparse's own refusals
+        status = exc.code
+    assert status == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "--cache-limit-gib" in err[0] and limit in err[0]
+    assert not (tmp_path / "out").exists()

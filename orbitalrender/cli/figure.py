@@ -13,8 +13,8 @@ from __future__ import annotations
 import argparse
 
 from ..errors import UserInputError
-from ..jobs.figure import LayoutOptions, figure_job, picture_size
-from ..jobs.shared import dtype_of, parse_states
+from ..jobs.figure import LayoutOptions, figure_job, picture_size, require_picture_memory
+from ..jobs.shared import dtype_of, parse_states, require_lattice_memory_of
 from ..jobs.write import write_picture
 from .common import add_command, field_source
 
@@ -48,11 +48,9 @@ def _check(options: LayoutOptions) -> None:
 
 def run(options: LayoutOptions, args: argparse.Namespace) -> int:
     from ..atomic import check_writable
-    from ..lattice.memory import require_lattice_memory, surface_bytes_per_point
     from ..picture.axis import state_nodal_axis_centre
     from ..picture.layout import default_columns, shell_states
     from ..picture.output import default_output_path, figure_format
-    from ..picture.scene import render_path, require_render_memory
     from ..state.units import femtoseconds_to_au, nucleus_reduced_mass_ratio
 
     _check(options)
@@ -61,9 +59,7 @@ def run(options: LayoutOptions, args: argparse.Namespace) -> int:
         check_writable(options.out)
     if options.report:
         check_writable(options.report)
-    dtype = dtype_of(options)
-    require_lattice_memory(options.resolution, dtype, extra_bytes_per_point=surface_bytes_per_point(dtype),
-                           what="lattice with its surface")
+    require_lattice_memory_of(options)
     times = None
     if options.times is not None:
         times = [femtoseconds_to_au(t) if options.time_unit == "fs" else t for t in options.times]
@@ -82,9 +78,7 @@ def run(options: LayoutOptions, args: argparse.Namespace) -> int:
     count = len(states)
     ncols = count if times is not None else (options.columns or default_columns(count))
     width, height = picture_size(options, count, ncols, times is not None)
-    path = render_path(cutaway=options.cutaway is not None, nodal_axis=options.nodal_axis,
-                       translucent_outer=options.translucent_outer)
-    require_render_memory(width, height, options.supersample, path)  # before any work
+    require_picture_memory(options, (width, height))  # before any work
     if options.nodal_axis and count == 1 and states[0] is not None:
         state_nodal_axis_centre(states[0])  # refuse before any work
     out = options.out

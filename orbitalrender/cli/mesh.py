@@ -12,7 +12,7 @@ import sys
 
 from ..errors import UserInputError
 from ..jobs.mesh import MeshOptions, check_mesh, mesh_job
-from ..jobs.shared import box_of, dtype_of, parse_states
+from ..jobs.shared import box_of, dtype_of, parse_states, require_lattice_memory_of
 from .common import add_command, field_source, flag_name
 
 __all__ = ["register", "run"]
@@ -30,7 +30,6 @@ def register(subparsers) -> None:
 
 def run(options: MeshOptions, args: argparse.Namespace) -> int:
     from ..atomic import check_writable
-    from ..lattice.memory import require_lattice_memory, surface_bytes_per_point
     from ..mesh.export import mesh_suffix
     from ..picture.output import write_report
 
@@ -42,9 +41,7 @@ def run(options: MeshOptions, args: argparse.Namespace) -> int:
         check_writable(options.report)
     name = flag_name(MeshOptions)
     check_mesh(options, options.out, name)
-    dtype = dtype_of(options)
-    require_lattice_memory(options.resolution, dtype, extra_bytes_per_point=surface_bytes_per_point(dtype),
-                           what="lattice with its surface")
+    require_lattice_memory_of(options)
     from ..surface.extract import sample_for_surface, surface_at_level
     from ..surface.level import level_for_fraction
 
@@ -55,7 +52,8 @@ def run(options: MeshOptions, args: argparse.Namespace) -> int:
         state = parse_states(options.states, options)[0]
         check_mesh(options, options.out, name, state=state)
         level = level_for_fraction(state, options.fraction)
-        lattice = sample_for_surface(state, level, options.resolution, box_of(options, state), dtype)
+        lattice = sample_for_surface(state, level, options.resolution, box_of(options, state),
+                                     dtype_of(options))
     surface = surface_at_level(lattice, level)
     report = mesh_job(surface, options.out, options, lattice=lattice)
     if options.report:

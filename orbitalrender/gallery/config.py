@@ -138,7 +138,8 @@ def _file(v, ctx):
     suffixes = KINDS.get(kind, ())
     p = PurePosixPath(v) if isinstance(v, str) else None
     if (p is None or not v or p.is_absolute() or "\\" in v or p.suffix.lower() not in suffixes
-            or any(part.startswith(".") for part in p.parts)):
+            or any(part.startswith(".") for part in p.parts)
+            or any(ord(c) < 32 or ord(c) == 127 for c in v)):  # NUL and other control characters
         raise _Bad(f"a relative file name inside the output folder ending in "
                    f"{', '.join(suffixes) or 'a known suffix'}")
     return str(p)
@@ -334,6 +335,19 @@ def _check_together(opts: dict, kind: str, file: str, states: tuple[State, ...],
             raise bad("nodal_axis", "needs a state whose terms all have m != 0 about one centre")
 
 
+def _check_nesting(file: str, files: dict[str, str], path: Path, table: str) -> None:
+    """Refuse a file that would be a folder of another output's file, or the other way round
+    (``a.png`` and ``a.png/b.png``), compared without case as on a case-blind file system."""
+    mine = PurePosixPath(file.lower())
+    for other, owner in files.items():
+        theirs = PurePosixPath(other)
+        if theirs in mine.parents or mine in theirs.parents:
+            inner, outer = (file, other) if theirs in mine.parents else (other, file)
+            raise ConfigError(f"{_where(path, table, 'file')} must not nest with another output's "
+                              f"file, got '{file}': '{inner}' would need '{outer}' (of output "
+                              f"'{owner}' or this one) to be a folder")
+
+
 def job_options(kind: str, options: Mapping[str, Any]) -> Any:
     """The jobs' options dataclass of `kind` from an output's checked `options` (gallery keys);
     keys left unset take the jobs' defaults, as on the command line.
@@ -413,6 +427,7 @@ def parse_config(data: Mapping[str, Any], path: str | os.PathLike = "config.toml
         if file.lower() in files:
             raise ConfigError(f"{_where(path, table, 'file')} must be unique, got '{file}' which "
                               f"output '{files[file.lower()]}' also writes")
+        _check_nesting(file, files, path, table)
         files[file.lower()] = name
         states = _parse_states(opts, kind, path, table)
         _check_together(opts, kind, file, states, path, table)

@@ -113,7 +113,8 @@ def render_index(config: GalleryConfig, out_dir: Path, records: Sequence[OutputR
 
     failed = sum(1 for r in records if r.error)
     c, lo = stats.computed, stats.loaded
-    counts = ", ".join(f"{kind}s {c[kind]} computed / {lo[kind]} from the cache" for kind in c)
+    counts = ", ".join([f"outputs {stats.drawn} drawn / {stats.kept} unchanged and kept"]
+                       + [f"{kind}s {c[kind]} computed / {lo[kind]} from the cache" for kind in c])
     head = [
         "<!DOCTYPE html>", '<html lang="en">', "<head>", '<meta charset="utf-8">',
         f"<title>{html.escape(config.title)}</title>", f"<style>{_STYLE}</style>", "</head>", "<body>",

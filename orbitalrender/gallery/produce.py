@@ -11,7 +11,6 @@ dataclass built from its keys, so a gallery output and the command's output agre
 
 from __future__ import annotations
 
-import hashlib
 import time
 import traceback
 from collections.abc import Callable
@@ -27,11 +26,20 @@ from ..lattice.sampler import PRECISIONS
 from ..state.model import State
 from ..surface.level import LevelResult
 from ..surface.model import Surface
-from .cache import CacheStats, DiskCache, cached_lattice, cached_level, cached_surface, level_key, surface_key
+from .cache import (
+    CacheStats,
+    DiskCache,
+    cached_lattice,
+    cached_level,
+    cached_surface,
+    file_sha256,
+    level_key,
+    surface_key,
+)
 from .config import OutputSpec, job_options
 
 __all__ = ["Caps", "Request", "OutputRecord", "requests_for", "make_request", "make_output",
-           "THUMBNAIL_PX", "INDEX_FOLDER"]
+           "THUMBNAIL_PX", "INDEX_FOLDER", "check_memory", "failure_text"]
 
 #: Longer side of the thumbnails on the index page, px.
 THUMBNAIL_PX = 320
@@ -73,18 +81,12 @@ class Request:
     level_rule: str = "quadrature"  # "lattice" in drafts: the level from the lattice's own sum
 
 
-def _file_sha256(path: str) -> str:
-    h = hashlib.sha256()
-    with open(path, "rb") as fh:
-        for block in iter(lambda: fh.read(1 << 20), b""):
-            h.update(block)
-    return h.hexdigest()
 
 
 def _field_description(spec: OutputSpec) -> tuple:
     path = spec.options["field"]
     return (path, spec.options.get("field_spacing_a0"), spec.options.get("field_origin_a0"),
-            _file_sha256(path))
+            file_sha256(path))
 
 
 def _field_parts(field_desc: tuple) -> dict:
@@ -183,10 +185,14 @@ def make_request(req: Request, cache: DiskCache) -> tuple[CacheStats, float, str
     """Make (or find) one surface or level in the cache; returns (counts, seconds, what was done).
 
     A failure is not raised here: the output that needs it fails when it is drawn, with
-    the same message, and the others go on.
+    the same message, and the others go on.  An entry already on disk is not read here:
+    the drawing reads (and verifies) it, and makes it again if it is damaged.
     """
     t0 = time.perf_counter()
     stats = CacheStats()
+    stored = cache.entry(req.what, req.key)
+    if stored is not None and stored.is_file():
+        return stats, time.perf_counter() - t0, "cached"
     try:
         (_surface if req.what == "surface" else _level)(req, cache, stats)
     except Exception as exc:  # noqa: BLE001 - reported by the output that needs it
@@ -289,6 +295,40 @@ def _picture_thumbnail(fig, path: Path) -> Callable[[Path], None]:
     return _png_thumbnail(path) if path.suffix.lower() == ".png" else _figure_thumbnail(fig)
 
 
+def failure_text(exc: BaseException) -> str:
+    """One line for a failed output: the message of an input error; for a fault inside the
+    tool its type, message and the place it was raised (file:line in function)."""
+    if isinstance(exc, _USER_ERRORS):
+        return str(exc)
+    frames = traceback.extract_tb(exc.__traceback__)
+    last = frames[-1] if frames else None
+    where = f" (at {Path(last.filename).name}:{last.lineno} in {last.name})" if last else ""
+    return f"{type(exc).__name__}: {exc}{where}".replace("\n", " ")
+
+
+def check_memory(spec: OutputSpec, caps: Caps = Caps()) -> None:
+    """Raise MemoryLimitError, before any work, if a step of `spec` would not fit in memory:
+    the estimates the commands make, by the same functions of the jobs layer
+    (:func:`~orbitalrender.jobs.shared.require_lattice_memory_of` for the lattice with its
+    surface, :func:`~orbitalrender.jobs.figure.require_picture_memory` for a picture)."""
+    from ..jobs.figure import picture_size, require_picture_memory
+    from ..jobs.shared import require_lattice_memory_of
+
+    if spec.kind not in ("figure", "layout", "mesh"):
+        return  # sections and radial plots are bounded by their pixel limits
+    options = job_options(spec.kind, spec.options)
+    if getattr(options, "field", None) is None:  # a user field is checked when it is read
+        require_lattice_memory_of(options, caps.lattice(options.resolution))
+    if spec.kind == "mesh":
+        return
+    from ..picture.layout import default_columns
+
+    count = max(1, len(spec.states))
+    strip = spec.kind == "layout" and options.times is not None
+    ncols = count if strip else (getattr(options, "columns", None) or default_columns(count))
+    require_picture_memory(options, caps.size(*picture_size(options, count, ncols, strip)))
+
+
 def make_output(spec: OutputSpec, out_dir: Path, cache: DiskCache,
                 caps: Caps = Caps()) -> tuple[OutputRecord, CacheStats]:
     """Draw and write one output with its report and thumbnail; never raises for a bad output."""
@@ -312,10 +352,7 @@ def make_output(spec: OutputSpec, out_dir: Path, cache: DiskCache,
         else:
             thumb = None
     except Exception as exc:  # noqa: BLE001 - one failed output must not stop the others
-        message = f"{type(exc).__name__}: {exc}" if not isinstance(exc, _USER_ERRORS) else str(exc)
-        if not isinstance(exc, _USER_ERRORS):
-            message += " | " + traceback.format_exc(limit=-1).strip().splitlines()[-2].strip()
-        return (OutputRecord(spec, path, report_path, None, time.perf_counter() - t0, message,
+        return (OutputRecord(spec, path, report_path, None, time.perf_counter() - t0, failure_text(exc),
                              isinstance(exc, _USER_ERRORS)), stats)
     return OutputRecord(spec, path, report_path, thumb, time.perf_counter() - t0,
                         report=report), stats

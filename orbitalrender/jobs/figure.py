@@ -29,7 +29,7 @@ from .shared import (
 )
 
 __all__ = ["FigureOptions", "LayoutOptions", "PROJECTIONS", "SIZE_RANGE_PX", "FIGURE_SIZE_PX", "PANEL_PX",
-           "parse_size", "figure_job", "picture_size", "view_record"]
+           "parse_size", "figure_job", "picture_size", "view_record", "require_picture_memory"]
 
 #: Sides of a picture accepted, px: below 64 the legend and title do not fit; above 8192 one
 #: supersampled render needs gigabytes.
@@ -136,6 +136,17 @@ def picture_size(options: FigureOptions, count: int, ncols: int, panels: bool = 
     probe = fit_geometry(10 * panel, panel + 30, dpi=options.dpi)
     return (options.width_px or ncols * panel + probe.legend_px,
             options.height_px or nrows * (panel + probe.title_px))
+
+
+def require_picture_memory(options: FigureOptions, size_px: Sequence[int]) -> None:
+    """Before any work: raise MemoryLimitError if rendering a picture of `size_px` (width,
+    height) with the view options of `options` would not fit in memory now.  The one check of
+    the command and the gallery."""
+    from ..picture.scene import render_path, require_render_memory
+
+    path = render_path(cutaway=options.cutaway is not None, nodal_axis=options.nodal_axis,
+                       translucent_outer=options.translucent_outer)
+    require_render_memory(*size_px, options.supersample, path)
 
 
 def view_record(options: FigureOptions, size: Sequence[int]) -> dict[str, Any]:

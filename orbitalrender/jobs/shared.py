@@ -20,7 +20,7 @@ from .option import Options, option
 __all__ = ["StateOptions", "FieldOptions", "LatticeOptions", "PictureOptions", "FileOptions",
            "FRACTION", "FRACTION_HELP", "LENGTH_UNITS", "NUCLEUS_NAMES", "PRECISION_NAMES", "PHASE_MAPS",
            "DPI_RANGE", "lazy",
-           "parse_states", "box_of", "dtype_of", "surface_of"]
+           "parse_states", "box_of", "dtype_of", "surface_of", "require_lattice_memory_of"]
 
 #: The probability enclosed by surfaces, marked on radial plots and cut by sections when
 #: no other is asked for (our choice: the common textbook picture shows 90 %).
@@ -145,6 +145,16 @@ def dtype_of(options: LatticeOptions) -> Any:
     from ..lattice.sampler import PRECISIONS
 
     return PRECISIONS[options.precision]
+
+
+def require_lattice_memory_of(options: LatticeOptions, resolution: int | None = None) -> None:
+    """Before any work: raise MemoryLimitError if the lattice of `options` (or of `resolution`
+    points per axis, e.g. a draft cap) and the surface step on it would not fit in memory now.
+    The one check of the commands and the gallery."""
+    from ..lattice.memory import require_lattice_and_surface_memory
+
+    require_lattice_and_surface_memory(options.resolution if resolution is None else resolution,
+                                       dtype_of(options))
 
 
 def surface_of(state, fraction: float, options: LatticeOptions) -> Any:

@@ -8,7 +8,7 @@ import numpy as np
 
 __all__ = ["MemoryLimitError", "available_bytes", "sampling_bytes", "largest_resolution",
            "require_lattice_memory", "require_bytes", "surface_bytes_per_point", "surface_bytes",
-           "require_surface_memory", "usable_bytes", "GIB"]
+           "require_surface_memory", "usable_bytes", "GIB", "require_lattice_and_surface_memory"]
 
 # Bytes per lattice point that the sampler may need on top of the output array: a
 # margin of 1/8 of the output plus the chunk temporaries of the slab-by-slab path,
@@ -121,3 +121,16 @@ def require_bytes(needed_bytes: int, what: str) -> None:
         raise MemoryLimitError(
             f"{what} needs about {needed_bytes / GIB:.1f} GiB but only "
             f"{budget / GIB:.1f} GiB can be used")
+
+
+def require_lattice_and_surface_memory(resolution: int, dtype=np.complex64) -> None:
+    """Before any work: raise MemoryLimitError if an N^3 lattice of `dtype` and the surface
+    step on it would not fit together now.  The one check that the ``figure`` and ``mesh``
+    commands, :func:`orbitalrender.surface.extract.extract_surface` and the gallery make.
+
+    Examples
+    --------
+    >>> require_lattice_and_surface_memory(16)   # 16^3 points fit anywhere
+    """
+    require_lattice_memory(resolution, dtype, extra_bytes_per_point=surface_bytes_per_point(dtype),
+                           what="lattice with its surface")

@@ -34,7 +34,7 @@ from scipy.optimize import brentq
 from skimage.measure import marching_cubes
 
 from ..lattice.grid import Box, Lattice
-from ..lattice.memory import require_lattice_memory, require_surface_memory, surface_bytes_per_point
+from ..lattice.memory import require_lattice_and_surface_memory, require_surface_memory
 from ..lattice.sampler import check_resolution, sample
 from ..state.hydrogen import radial_function
 from ..state.model import State
@@ -416,8 +416,7 @@ def extract_surface(source: State | Lattice, fraction: float, resolution: int = 
     if isinstance(source, State):
         resolution = check_resolution(resolution)
         # both steps are refused together, before the lattice is allocated
-        require_lattice_memory(resolution, dtype, extra_bytes_per_point=surface_bytes_per_point(dtype),
-                               what="lattice with its surface")
+        require_lattice_and_surface_memory(resolution, dtype)
         level = level_for_fraction(source, fraction)
         return surface_at_level(sample_for_surface(source, level, resolution, box, dtype), level)
     if isinstance(source, Lattice):

@@ -1,0 +1,189 @@
+"""Real faults during a gallery run in a subprocess: a worker killed with SIGKILL (once, and
+every time), and SIGINT or SIGTERM to the main process.
+
+The worker processes are found as the grandchildren of the gallery's process (its child
+is the forkserver, which forks the workers), by reading parent pids from /proc (Linux).
+"""
+
+from __future__ import annotations
+
+import os
+import signal
+import subprocess
+import sys
+import textwrap
+import threading
+import time
+from pathlib import Path
+
+import pytest
+
+REPO = Path(__file__).resolve().parents[1]
+pytestmark = pytest.mark.skipif(not Path("/proc/self/stat").exists(), reason="needs Linux /proc")
+
+FOUR_OUTPUTS = """
+[defaults]
+resolution = 40
+fraction = 0.8
+supersample = 1
+width_px = 240
+height_px = 200
+
+[[outputs]]
+name = "a"
+kind = "figure"
+state = "2pz"
+
+[[outputs]]
+name = "b"
+kind = "figure"
+state = "3dz2"
+
+[[outputs]]
+name = "c"
+kind = "figure"
+state = "2,1,1"
+
+[[outputs]]
+name = "d"
+kind = "radial"
+states = ["2s"]
+dpi = 40
+"""
+
+
+def _children() -> dict[int, list[int]]:
+    kids: dict[int, list[int]] = {}
+    for entry in Path("/proc").iterdir():
+        if entry.name.isdigit():
+            try:
+                stat = (entry / "stat").read_text()
+            except OSError:
+                continue
+            ppid = int(stat.rsplit(")", 1)[1].split()[1])
+            kids.setdefault(ppid, []).append(int(entry.name))
+    return kids
+
+
+def _workers(pid: int) -> list[int]:
+    kids = _children()
+    return [w for child in kids.get(pid, []) for w in kids.get(child, [])]
+
+
+def _alive(pid: int) -> bool:
+    try:
+        state = Path(f"/proc/{pid}/stat").read_text().rsplit(")", 1)[1].split()[0]
+    except OSError:
+        return False
+    return state != "Z"
+
+
+def _start(tmp: Path, text: str = FOUR_OUTPUTS, *extra: str) -> tuple[subprocess.Popen, Path]:
+    cfg = tmp / "g.toml"
+    cfg.write_text(textwrap.dedent(text), encoding="utf-8")
+    out = tmp / "out"
+    env = {**os.environ, "MPLBACKEND": "Agg"}
+    proc = subprocess.Popen([sys.executable, "-m", "orbitalrender", "gallery", str(cfg), "--out", str(out),
+                             "--jobs", "2", *extra], cwd=REPO, env=env, stdout=subprocess.PIPE,
+                            stderr=subprocess.PIPE, text=True)
+    return proc, out
+
+
+def _wait_for_workers(proc: subprocess.Popen, count: int = 1) -> list[int]:
+    for _ in range(6000):  # a guard against a hang (10 min), not a timing check
+        found = _workers(proc.pid)
+        if len(found) >= count or proc.poll() is not None:
+            return found
+        time.sleep(0.1)
+    raise AssertionError("no worker process appeared")
+
+
+def _temporaries(out: Path) -> list[Path]:
+    return [p for p in out.rglob("*") if ".part" in p.name]
+
+
+def test_a_worker_killed_once_costs_nothing_but_a_warning(tmp_path):
+    proc, out = _start(tmp_path)
+    first = proc.stderr.readline()  # the first finished task: the rest of the work is still to do
+    assert first.startswith("[1/"), first
+    (victim, *_) = _wait_for_workers(proc)
+    os.kill(victim, signal.SIGKILL)
+    stdout, rest = proc.communicate(timeout=600)
+    err = first + rest
+    assert proc.returncode == 0, err
+    assert "made 4 of 4 outputs" in stdout
+    assert "warning: a worker process ended unexpectedly" in err
+    assert all((out / f"{n}.png").is_file() for n in "abcd")
+    assert 'class="card failed"' not in (out / "index.html").read_text()
+    assert _temporaries(out) == []
+
+
+def test_a_worker_killed_every_time_fails_its_outputs_and_the_index_says_so(tmp_path):
+    proc, out = _start(tmp_path, FOUR_OUTPUTS, "--quiet")
+    stop = threading.Event()
+
+    def killer() -> None:  # end every worker as soon as it appears, until the run is over
+        while not stop.is_set():
+            for w in _workers(proc.pid):
+                try:
+                    os.kill(w, signal.SIGKILL)
+                except ProcessLookupError:
+                    pass
+            time.sleep(0.02)
+
+    thread = threading.Thread(target=killer, daemon=True)
+    thread.start()
+    try:
+        stdout, err = proc.communicate(timeout=600)
+    finally:
+        stop.set()
+        thread.join()
+    assert proc.returncode == 1, err
+    lines = err.strip().splitlines()
+    failed = [ln for ln in lines if ": error: output " in ln]
+    assert sorted(ln.split("'")[1] for ln in failed) == ["a", "b", "c", "d"]
+    assert all("worker process" in ln and "Traceback" not in ln for ln in failed)
+    index = (out / "index.html").read_text()
+    assert index.count('class="card failed"') == 4
+    assert "made 0 of 4 outputs" in stdout
+
+
+SLOW = """
+[defaults]
+resolution = 128
+fraction = 0.9
+width_px = 900
+height_px = 800
+""" + "".join(f"""
+[[outputs]]
+name = "{label}"
+kind = "figure"
+state = "{label}"
+""" for label in ("3dz2", "4fxyz", "3dxy", "4fz3", "3px", "4dz2"))
+
+
+@pytest.mark.parametrize("sig, status, line", [
+    (signal.SIGINT, 130, "orbitalrender: interrupted"),
+    (signal.SIGTERM, 143, "orbitalrender gallery: terminated"),
+])
+def test_sigint_or_sigterm_stops_the_workers_at_once_with_one_line(tmp_path, sig, status, line):
+    proc, out = _start(tmp_path, SLOW, "--quiet")
+    workers = _wait_for_workers(proc, 2)
+    time.sleep(1.0)  # let them start computing
+    assert proc.poll() is None, "the run ended before it could be interrupted"
+    t0 = time.monotonic()
+    proc.send_signal(sig)
+    stdout, err = proc.communicate(timeout=600)
+    print(f"exit {time.monotonic() - t0:.2f} s after signal {sig}")  # measured, not asserted
+    assert proc.returncode == status
+    assert err.strip().splitlines() == [line]
+    for _ in range(100):  # a guard: the workers are ended before the main process returns
+        if not any(_alive(w) for w in workers):
+            break
+        time.sleep(0.05)
+    assert not any(_alive(w) for w in workers)
+    assert _temporaries(out) == []
+    # the work queued behind the running tasks was dropped, not finished first: of the six
+    # surfaces, those done before the interrupt are in the cache, and no output was drawn
+    assert len(list((out / ".cache" / "surface").glob("*.npz"))) < 6
+    assert list(out.glob("*.png")) == []
