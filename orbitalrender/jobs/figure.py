@@ -208,6 +208,13 @@ def figure_job(states: Sequence, options: FigureOptions, *,
                   supersample=options.supersample)
     compose = dict(dpi=options.dpi, units=options.units, legend=options.legend,
                    scale_bar=options.legend, transparent=options.transparent)
+    if options.phase_map == "sign":  # refuse a complex state before its surfaces are made
+        from ..state.model import State
+        from ..state.phase import sign_rotation
+
+        for s in states:
+            if isinstance(s, State):
+                sign_rotation(s)
     surfaces = [surface(s) for s in states]
     strip = times_au is not None
     ncols = (len(surfaces) if strip else
