@@ -14,7 +14,6 @@ import argparse
 import re
 from pathlib import Path
 
-import matplotlib as mpl
 import numpy as np
 
 from ..atomic import check_writable
@@ -243,9 +242,7 @@ def run(args: argparse.Namespace) -> int:
         metadata = figure_metadata(None, args.fraction, None, args.resolution, command="figure",
                                    panels=[_panel_record(s) for s in surfaces], view=view,
                                    px_per_a0=renders[0].px_per_a0)
-    # labels stay text in SVG (not outlines) and embed as TrueType in PDF, as journals ask
-    with mpl.rc_context({"svg.fonttype": "none", "pdf.fonttype": 42}):
-        save_figure(fig, out, metadata, dpi=args.dpi, transparent=args.transparent)
+    save_figure(fig, out, metadata, dpi=args.dpi, transparent=args.transparent)
     if args.report:
         write_report(args.report, metadata | {"file": str(out)})
     print(f"wrote {out}")

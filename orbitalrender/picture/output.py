@@ -15,6 +15,11 @@ PDF      document information: ``Title``, ``Creator``, ``Keywords`` (short
          summary) and ``Subject`` (the JSON)
 =======  ==================================================================
 
+Text stays text in vector output: SVG ``<text>`` elements (``svg.fonttype = 'none'``) with
+a list of font families that common viewers have, and PDF fonts embedded as TrueType
+(``pdf.fonttype = 42``, Type 42) rather than Type 3 bitmaps-as-programs, which journal
+preflight checks commonly reject (common practice in publishing).  PNG is unchanged.
+
 Output is deterministic: the same figure and metadata give the same bytes.  No
 creation date is written (PDF ``CreationDate`` and SVG ``Date`` are removed),
 the SVG id salt is fixed, and matplotlib's PNG writer stores no time stamp.
@@ -49,6 +54,7 @@ __all__ = [
     "DPI_RANGE",
     "check_dpi",
     "check_output_paths",
+    "SAVE_RC",
 ]
 
 #: Suffix -> matplotlib format name of the picture files we write.
@@ -60,6 +66,16 @@ METADATA_KEY = "orbitalrender"
 DPI_RANGE = (10.0, 2400.0)
 #: Fixed salt for the ids matplotlib writes into SVG files (any constant string works).
 _SVG_HASH_SALT = "orbitalrender"
+#: Settings of every save: editable text in SVG and PDF (see the module docstring).  The SVG
+#: names a list of families, so a viewer without DejaVu Sans (the font matplotlib measures
+#: text with) picks a metric-similar sans-serif of its own.
+SAVE_RC: dict[str, Any] = {
+    "svg.hashsalt": _SVG_HASH_SALT,
+    "svg.fonttype": "none",
+    "pdf.fonttype": 42,
+    "font.family": ["sans-serif"],
+    "font.sans-serif": ["DejaVu Sans", "Bitstream Vera Sans", "Verdana", "Arial", "Helvetica"],
+}
 
 
 def figure_format(path: str | os.PathLike) -> str:
@@ -222,6 +238,9 @@ def save_figure(fig, path: str | os.PathLike, metadata: Mapping[str, Any],
                 dpi: float | None = None, **savefig_kwargs: Any) -> Path:
     """Write `fig` to `path` (PNG, SVG or PDF from the suffix) with `metadata` embedded.
 
+    The one save path of every picture (command line, gallery and Python): text stays
+    text in SVG and PDF (:data:`SAVE_RC`).
+
     Parameters
     ----------
     fig : matplotlib.figure.Figure
@@ -256,7 +275,7 @@ def save_figure(fig, path: str | os.PathLike, metadata: Mapping[str, Any],
     """
     fmt = figure_format(path)
     info = _format_metadata(fmt, metadata)
-    with mpl.rc_context({"svg.hashsalt": _SVG_HASH_SALT}), atomic_path(path) as tmp:
+    with mpl.rc_context(SAVE_RC), atomic_path(path) as tmp:
         fig.savefig(tmp, format=fmt, dpi=dpi if dpi is not None else "figure", metadata=info,
                     **savefig_kwargs)
     return Path(path)
