@@ -223,9 +223,9 @@ def run(args: argparse.Namespace) -> int:
     if times is not None:
         state = states[0]
         box = box_from_args(args, state)
-        labels = [f"t = {t} {args.time_unit}" for t in args.times.split(",") if t.strip()]
-        fig, renders = time_strip(state, times, args.fraction, args.resolution, box, labels,
-                                  width_px=width, height_px=height, **common, **render_options)
+        fig, renders = time_strip(state, times, args.fraction, args.resolution, box,
+                                  width_px=width, height_px=height, time_unit=args.time_unit,
+                                  **common, **render_options)
         metadata = figure_metadata(state, args.fraction, None, args.resolution, command="figure",
                                    times_au=times, view=view, px_per_a0=renders[0].px_per_a0)
     elif len(states) == 1:

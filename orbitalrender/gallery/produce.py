@@ -448,7 +448,7 @@ def _layout_size(work: _Work, count: int, ncols: int) -> tuple[int, int]:
 
 @_drawer("layout")
 def _draw_layout(work: _Work, path: Path):
-    from ..picture.layout import default_columns, small_multiples
+    from ..picture.layout import default_columns, small_multiples, time_labels
     from ..picture.output import figure_metadata
     from ..picture.render3d import surface_title
 
@@ -456,7 +456,8 @@ def _draw_layout(work: _Work, path: Path):
     surfaces = work.surfaces()
     strip = "times" in o
     if strip:
-        titles = [f"t = {t:g} {work.opt('time_unit') or 'au'}" for t in o["times"]]
+        titles = time_labels(surfaces[0].state, [s.state.time_au for s in surfaces],
+                             work.opt("time_unit") or "au")
         ncols = len(surfaces)
     else:
         titles = [surface_title(s) for s in surfaces]
