@@ -6,8 +6,9 @@ done per pixel on those buffers:
 
 * **Normals** are interpolated per pixel from the vertex normals (Phong
   interpolation) and lit with ambient + two diffuse lights + a modest
-  Blinn-Phong highlight.  The lighting multiplies the colour in linear light, so
-  it changes brightness, not hue.
+  Blinn-Phong highlight.  Light and shadow change only the CIELAB lightness of
+  the phase colour, keeping its hue and chroma (:mod:`.shadetable`, a table over
+  phase and shade), so one phase reads as one colour in light and in shadow.
 * **Hue** is the phase of psi.  The unit phasors psi/|psi| of the three
   vertices are interpolated (never the angles, which would jump where the phase
   wraps from pi to -pi) and the angle of the result is looked up in
@@ -54,8 +55,9 @@ import numpy as np
 from ..lattice.memory import require_render_memory
 from ..state.notation import pretty_label
 from ..surface.model import Surface
-from .colormap import PHASE_SCHEMES, linear_to_srgb, phase_to_rgb, real_rotation, srgb_to_linear
+from .colormap import PHASE_SCHEMES, linear_to_srgb, real_rotation, srgb_to_linear
 from .raster import Fragments, rasterize, scan_triangle
+from .shadetable import SHADE_LEVELS, shade_colours, shade_table
 
 __all__ = [
     "PROJECTIONS",
@@ -472,25 +474,26 @@ def _unit(v) -> np.ndarray:
     return v / np.linalg.norm(v, axis=-1, keepdims=True)
 
 
-#: Entries of the linear-light phase table used per pixel (step 0.09 degree, far below a
-#: visible difference); it is tabulated from :func:`phase_to_rgb`, not a map of its own.
-_SHADE_LUT_SIZE = 4096
+def _shade_table(scheme: str, lighting: Lighting) -> np.ndarray:
+    """The phase colours at every shade the lighting can give (see :mod:`.shadetable`)."""
+    return shade_table(scheme, _shade_max(lighting))
 
 
-@cache
-def _linear_lut(scheme: str) -> np.ndarray:
-    phases = 2 * np.pi * np.arange(_SHADE_LUT_SIZE) / _SHADE_LUT_SIZE
-    return np.ascontiguousarray(srgb_to_linear(phase_to_rgb(phases, scheme)))
+def _shade_max(lighting: Lighting) -> float:
+    """Largest shade factor: ambient and both lights full on."""
+    return float(lighting.ambient + lighting.key + lighting.fill)
 
 
 def _light_params(lighting: Lighting, proj: _Projection) -> np.ndarray:
-    """[key (3), fill (3), half vector (3), ambient, key, fill, specular, shininess] in world axes."""
+    """[key (3), fill (3), half vector (3), ambient, key, fill, specular, shininess, table levels
+    per unit of shade] in world axes."""
     frame = np.stack([proj.right, proj.up, proj.toward])
     key = _unit(lighting.key_direction) @ frame
     fill = _unit(lighting.fill_direction) @ frame
     half = _unit(key + proj.toward)
+    levels_per_shade = (SHADE_LEVELS - 1) / _shade_max(lighting)
     return np.concatenate([key, fill, half, [lighting.ambient, lighting.key, lighting.fill,
-                                             lighting.specular, lighting.shininess]])
+                                             lighting.specular, lighting.shininess, levels_per_shade]])
 
 
 @numba.njit(cache=True, nogil=True)
@@ -508,6 +511,18 @@ def _light(nx, ny, nz, lp):  # pragma: no cover - compiled
 def _lut_index(re, im, size):  # pragma: no cover - compiled
     k = int(np.rint(np.arctan2(im, re) * (size / (2.0 * np.pi))))
     return k % size
+
+
+@numba.njit(cache=True, nogil=True)
+def _shaded(table, c, shade, spec, lp):  # pragma: no cover - compiled
+    """Linear-light (r, g, b) of phase entry c at `shade`, interpolated between table levels,
+    plus the white highlight `spec`."""
+    x = min(max(shade * lp[14], 0.0), table.shape[1] - 1.0)
+    k = min(int(x), table.shape[1] - 2)
+    f = x - k
+    return ((1.0 - f) * table[c, k, 0] + f * table[c, k + 1, 0] + spec,
+            (1.0 - f) * table[c, k, 1] + f * table[c, k + 1, 1] + spec,
+            (1.0 - f) * table[c, k, 2] + f * table[c, k + 1, 2] + spec)
 
 
 @numba.njit(cache=True, nogil=True)
@@ -534,8 +549,7 @@ def _shade_sample(t, b0, b1, b2, faces, normals, phasors, front, lut, lp,
         gain = back_gain
     diffuse, spec = _light(nx, ny, nz, lp)
     c = _lut_index(pr, pi, lut.shape[0])
-    return (gain * (lut[c, 0] * diffuse + spec), gain * (lut[c, 1] * diffuse + spec),
-            gain * (lut[c, 2] * diffuse + spec))
+    return _shaded(lut, c, gain * diffuse, gain * spec, lp)
 
 
 @numba.njit(cache=True, nogil=True)
@@ -680,8 +694,7 @@ def _shade_points(normals, psi, lut, lp):  # pragma: no cover - compiled
     for p in range(normals.shape[0]):
         diffuse, spec = _light(normals[p, 0], normals[p, 1], normals[p, 2], lp)
         c = _lut_index(psi[p].real, psi[p].imag, size)
-        for ch in range(3):
-            out[p, ch] = lut[c, ch] * diffuse + spec
+        out[p, 0], out[p, 1], out[p, 2] = _shaded(lut, c, diffuse, spec, lp)
     return out
 
 
@@ -714,8 +727,8 @@ def _downsample(img, alpha, ss):  # pragma: no cover - compiled
     return out, a_out
 
 
-#: One-entry table for caps of a user field, whose psi is not known off the mesh: mid grey.
-_GREY_LUT = srgb_to_linear(np.full((1, 3), 0.6))
+#: Colour of the caps of a user field, whose psi is not known off the mesh: mid grey (sRGB).
+_CAP_GREY = 0.6
 
 
 @dataclass(frozen=True, eq=False)
@@ -789,7 +802,7 @@ def _shade(frags: Fragments, mesh: _Mesh, proj: _Projection, scheme: str, lighti
     h, w = frags.triangle.shape
     lin = np.zeros((h, w, 3), dtype=np.float32)
     back = np.zeros((h, w), dtype=np.bool_)
-    lut = _linear_lut(scheme)
+    lut = _shade_table(scheme, lighting)
     lp = _light_params(lighting, proj)
     _shade_pixels(frags.triangle, frags.weights, mesh.faces, mesh.normals, mesh.phasors,
                   mesh.front, lut, lp, float(lighting.back_face), lin, back)
@@ -810,7 +823,8 @@ def _shade(frags: Fragments, mesh: _Mesh, proj: _Projection, scheme: str, lighti
         points = a[capped] + t[:, None] * b[capped]
         cap_normal = np.ascontiguousarray(planes[0][which[capped]])
         if cap_psi is None:  # no analytic psi: a neutral grey cap
-            colour = _shade_points(cap_normal, np.ones(len(t), dtype=complex), _GREY_LUT, lp)
+            grey = shade_colours(np.full((1, 3), _CAP_GREY), _shade_max(lighting))
+            colour = _shade_points(cap_normal, np.ones(len(t), dtype=complex), grey, lp)
         else:
             psi = np.asarray(cap_psi(*points.T), dtype=complex) * np.conj(rotation)
             colour = _shade_points(cap_normal, np.ascontiguousarray(psi), lut, lp)
@@ -969,7 +983,7 @@ def render_surfaces(surfaces: Surface | Sequence[Surface], width_px: int = 800, 
         x, y, depth, divisor = proj.project(mesh.vertices)
         premult = np.empty((height_px, width_px, 3), dtype=np.float32)
         alpha = np.empty((height_px, width_px), dtype=np.float32)
-        shading = (mesh.faces, mesh.normals, mesh.phasors, mesh.front, _linear_lut(phase_map),
+        shading = (mesh.faces, mesh.normals, mesh.phasors, mesh.front, _shade_table(phase_map, lighting),
                    _light_params(lighting, proj), float(lighting.back_face), ss, line_lin)
         if segment is None:  # band by band (fast, little memory)
             with np.errstate(invalid="ignore"):

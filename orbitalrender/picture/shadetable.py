@@ -30,7 +30,7 @@ from skimage.color import rgb2lab
 
 from .colormap import linear_to_srgb, phase_to_rgb, srgb_to_linear
 
-__all__ = ["SHADE_PHASES", "SHADE_LEVELS", "shade_table", "shade_lookup"]
+__all__ = ["SHADE_PHASES", "SHADE_LEVELS", "shade_colours", "shade_table", "shade_lookup"]
 
 #: Phase entries of the table: steps of 0.35 degree, far below a visible difference.
 SHADE_PHASES = 1024
@@ -69,22 +69,14 @@ def _in_gamut(linear: np.ndarray) -> np.ndarray:
     return np.all((linear >= -1e-6) & (linear <= 1.0 + 1e-6), axis=-1)
 
 
-@cache
-def shade_table(scheme: str, s_max: float) -> np.ndarray:
-    """Linear-light RGB (SHADE_PHASES, SHADE_LEVELS, 3) float32 of each phase at each shade.
+def shade_colours(base_srgb: np.ndarray, s_max: float) -> np.ndarray:
+    """Linear-light RGB (P, SHADE_LEVELS, 3) float32 of sRGB colours (P, 3) at every shade.
 
-    Entry [p, k] is the colour of phase 2 pi p / SHADE_PHASES (:func:`phase_to_rgb`) at
-    shade s = s_max k / (SHADE_LEVELS - 1): lightness L*(s Y_0), the hue and chroma of the
-    phase colour, the chroma lowered (by bisection) only as far as the sRGB gamut needs.
-
-    Examples
-    --------
-    >>> t = shade_table("uniform", 1.0)
-    >>> t.shape, bool(t.min() >= 0.0 and t.max() <= 1.0)
-    ((1024, 64, 3), True)
+    Entry [p, k] is colour p at shade s = s_max k / (SHADE_LEVELS - 1): lightness
+    L*(s Y_0), the hue and chroma of colour p, the chroma lowered (by bisection) only as
+    far as the sRGB gamut needs.
     """
-    phases = 2.0 * np.pi * np.arange(SHADE_PHASES) / SHADE_PHASES
-    base = np.asarray(phase_to_rgb(phases, scheme), dtype=float)
+    base = np.asarray(base_srgb, dtype=float).reshape(-1, 3)
     lab = rgb2lab(base[None])[0]
     y0 = srgb_to_linear(base) @ np.array([0.2126, 0.7152, 0.0722])  # IEC 61966-2-1 luminance
     s = s_max * np.arange(SHADE_LEVELS) / (SHADE_LEVELS - 1)
@@ -109,6 +101,20 @@ def shade_table(scheme: str, s_max: float) -> np.ndarray:
             hi = np.where(ok, hi, mid)
         out[bad] = colour(light, lo, dirs)
     return np.ascontiguousarray(np.clip(out, 0.0, 1.0), dtype=np.float32)
+
+
+@cache
+def shade_table(scheme: str, s_max: float) -> np.ndarray:
+    """:func:`shade_colours` of the phase map `scheme` at SHADE_PHASES phases 2 pi p / SHADE_PHASES.
+
+    Examples
+    --------
+    >>> t = shade_table("uniform", 1.0)
+    >>> t.shape, bool(t.min() >= 0.0 and t.max() <= 1.0)
+    ((1024, 64, 3), True)
+    """
+    phases = 2.0 * np.pi * np.arange(SHADE_PHASES) / SHADE_PHASES
+    return shade_colours(phase_to_rgb(phases, scheme), s_max)
 
 
 def shade_lookup(phase_rad: np.ndarray, shade: np.ndarray, scheme: str = "uniform",
