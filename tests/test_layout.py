@@ -13,6 +13,7 @@ import pytest
 from scipy import constants
 from scipy.optimize import brentq
 
+from orbitalrender.picture.camera import Camera
 from orbitalrender.picture.layout import (
     beat_period_au,
     default_columns,
@@ -22,7 +23,6 @@ from orbitalrender.picture.layout import (
     time_labels,
     time_strip,
 )
-from orbitalrender.picture.render3d import Camera
 from orbitalrender.state.model import eigenstate, real_orbital, superpose
 from orbitalrender.state.notation import parse_state
 from orbitalrender.surface.extract import extract_surface

@@ -23,6 +23,9 @@ preflight checks commonly reject (common practice in publishing).  PNG is unchan
 Output is deterministic: the same figure and metadata give the same bytes.  No
 creation date is written (PDF ``CreationDate`` and SVG ``Date`` are removed),
 the SVG id salt is fixed, and matplotlib's PNG writer stores no time stamp.
+
+matplotlib is loaded only when a figure is saved, so the checks of output paths and
+:data:`DPI_RANGE` cost no heavy import.
 """
 
 from __future__ import annotations
@@ -35,7 +38,6 @@ from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
 
-import matplotlib as mpl
 import numpy as np
 
 from ..atomic import atomic_path, check_writable
@@ -275,6 +277,8 @@ def save_figure(fig, path: str | os.PathLike, metadata: Mapping[str, Any],
     """
     fmt = figure_format(path)
     info = _format_metadata(fmt, metadata)
+    import matplotlib as mpl
+
     with mpl.rc_context(SAVE_RC), atomic_path(path) as tmp:
         fig.savefig(tmp, format=fmt, dpi=dpi if dpi is not None else "figure", metadata=info,
                     **savefig_kwargs)

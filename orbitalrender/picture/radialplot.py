@@ -35,9 +35,9 @@ from ..state.model import State
 from ..state.notation import conditions_label, pretty_label
 from ..state.properties import most_probable_radius, radial_node_radii, shell_of
 from ..state.radial import radial_cumulative, radius_holding
-from ..state.units import a0_to
+from ..state.units import a0_to, unit_label
 from ..surface.level import check_fraction
-from .legend import check_text_size, unit_label
+from .legend import check_text_size
 
 __all__ = [
     "RADIAL_QUANTITIES",

@@ -28,7 +28,7 @@ from functools import cache
 import numpy as np
 from skimage.color import rgb2lab
 
-from .colormap import linear_to_srgb, phase_to_rgb, srgb_to_linear
+from ..colormap import linear_to_srgb, phase_to_rgb, srgb_to_linear
 
 __all__ = ["SHADE_PHASES", "SHADE_LEVELS", "shade_colours", "shade_table", "shade_lookup"]
 
