@@ -10,8 +10,8 @@ import pytest
 from skimage.color import rgb2lab
 from skimage.measure import marching_cubes
 
-from orbitalrender.colormap import linear_to_srgb, phase_to_rgb
 from orbitalrender import render_surfaces
+from orbitalrender.colormap import linear_to_srgb, phase_to_rgb
 from orbitalrender.picture.shadetable import SHADE_LEVELS, shade_lookup, shade_table
 from orbitalrender.surface.model import Surface
 

@@ -27,6 +27,7 @@ from .axis import axis_segment, has_nodal_axis
 from .camera import DEFAULT_CAMERA, Camera, as_surfaces, frame_camera
 from .compose import compose_figure, fit_geometry, surface_title
 from .scene import Render, render_surfaces
+from .triad import wants_triad
 
 __all__ = ["shared_cameras", "small_multiples", "time_strip", "shell_states", "default_columns",
            "beat_period_au", "time_labels", "PERIOD_TOLERANCE", "TIME_UNITS"]
@@ -94,7 +95,7 @@ def small_multiples(panels: Sequence[Surface | Sequence[Surface]], titles: Seque
                     ncols: int | None = None, width_px: int = 1200, height_px: int = 1000,
                     dpi: float = 100.0, units: str = "a0", legend: bool = True, scale_bar: bool = True,
                     transparent: bool = False, camera: Camera = DEFAULT_CAMERA, shared_target: bool = False,
-                    **render_options):
+                    *, triad: str = "auto", text_size_pt: float | None = None, **render_options):
     """A grid of renders at one scale, with titles and a shared legend.
 
     Parameters
@@ -113,6 +114,12 @@ def small_multiples(panels: Sequence[Surface | Sequence[Surface]], titles: Seque
         :func:`shared_cameras`).
     shared_target : bool
         Look at one common centre in every panel.
+    triad : {"auto", "on", "off"}
+        One x, y, z axis triad for all panels (they share the viewing direction); ``auto``
+        draws it unless every state is spherically symmetric.
+    text_size_pt : float, optional
+        Title size in points (default 1/20 of a grid cell, see
+        :func:`orbitalrender.picture.compose.fit_geometry`).
     **render_options
         Passed to :func:`render_surfaces` (phase_map, cutaway, nodal_axis, ...).
 
@@ -131,7 +138,9 @@ def small_multiples(panels: Sequence[Surface | Sequence[Surface]], titles: Seque
     if ncols < 1:
         raise ValueError(f"a layout needs at least one column, got {ncols}")
     nrows = math.ceil(len(groups) / ncols)
-    geometry = fit_geometry(width_px, height_px, ncols, nrows, True, legend or scale_bar, dpi)
+    show_triad = wants_triad(triad, [s.state for g in groups for s in g])
+    geometry = fit_geometry(width_px, height_px, ncols, nrows, True, legend or scale_bar or show_triad, dpi,
+                            text_size_pt=text_size_pt)
     pw, ph = geometry.panel_px
     # the nodal axis is drawn in the panels whose state has one
     want_axis = bool(render_options.pop("nodal_axis", False))
@@ -142,7 +151,7 @@ def small_multiples(panels: Sequence[Surface | Sequence[Surface]], titles: Seque
     renders: list[Render] = [render_surfaces(g, pw, ph, camera=c, background=background, nodal_axis=a,
                                              **render_options)
                              for g, c, a in zip(groups, cameras, axis)]
-    fig = compose_figure(renders, geometry, titles, units, legend, scale_bar, transparent)
+    fig = compose_figure(renders, geometry, titles, units, legend, scale_bar, transparent, triad=show_triad)
     return fig, renders
 
 
@@ -190,7 +199,8 @@ def time_strip(state: State, times_au: Sequence[float], fraction: float = 0.9, r
     if labels is None:
         labels = time_labels(state, times, time_unit)
     if width_px is None:  # square frames
-        probe = fit_geometry(10 * height_px, height_px, 1, 1, True, True, options.get("dpi", 100.0))
+        probe = fit_geometry(10 * height_px, height_px, 1, 1, True, True, options.get("dpi", 100.0),
+                             text_size_pt=options.get("text_size_pt"))
         width_px = len(times) * probe.panel_px[1] + probe.legend_px
     options.setdefault("shared_target", True)
     return small_multiples(surfaces, list(labels), len(times), width_px, height_px, **options)
