@@ -222,8 +222,9 @@ def compose_figure(renders: Sequence[Render], geometry: FigureGeometry,
         bar_h = 3.0 * fs * geometry.dpi / 72.0
         show_bar = scale_bar and renders[0].camera.projection == "orthographic"
         triad_side = 0.7 * side if triad else 0.0
+        gap = 2.2 * fs * geometry.dpi / 72.0 if triad and legend else 0.0  # the legend's title
         # stacked and centred: the triad, the phase legend, the scale bar
-        stack = triad_side + (side if legend else 0.0) + (1.2 * bar_h if show_bar else 0.0)
+        stack = triad_side + gap + (side if legend else 0.0) + (1.2 * bar_h if show_bar else 0.0)
         if stack > fh:  # a low strip: the triad gives way
             triad_side = max(0.0, triad_side - (stack - fh))
             stack = fh
@@ -232,7 +233,7 @@ def compose_figure(renders: Sequence[Render], geometry: FigureGeometry,
             ax = fig.add_axes(((x0 + 0.5 * (lw - triad_side)) / fw, 1.0 - (top + triad_side) / fh,
                                triad_side / fw, triad_side / fh))
             draw_axis_triad(ax, renders[0].camera, fontsize=fs)
-            top += triad_side
+            top += triad_side + gap
         if legend:
             ax = fig.add_axes(((x0 + 0.04 * lw) / fw, 1.0 - (top + side) / fh, side / fw, side / fh))
             draw_phase_legend(ax, renders[0].phase_map, fontsize=fs)

@@ -31,6 +31,7 @@ matplotlib is loaded only when a figure is saved, so the checks of output paths 
 from __future__ import annotations
 
 import json
+import logging
 import math
 import os
 import re
@@ -279,9 +280,17 @@ def save_figure(fig, path: str | os.PathLike, metadata: Mapping[str, Any],
     info = _format_metadata(fmt, metadata)
     import matplotlib as mpl
 
-    with mpl.rc_context(SAVE_RC), atomic_path(path) as tmp:
-        fig.savefig(tmp, format=fmt, dpi=dpi if dpi is not None else "figure", metadata=info,
-                    **savefig_kwargs)
+    # embedding TrueType fonts in PDF goes through fontTools, which warns (on the logging
+    # system) that DejaVu's head-table dates look low: true of the font, not worth a line
+    quiet = logging.getLogger("fontTools")
+    level = quiet.level
+    quiet.setLevel(logging.ERROR)
+    try:
+        with mpl.rc_context(SAVE_RC), atomic_path(path) as tmp:
+            fig.savefig(tmp, format=fmt, dpi=dpi if dpi is not None else "figure", metadata=info,
+                        **savefig_kwargs)
+    finally:
+        quiet.setLevel(level)
     return Path(path)
 
 
