@@ -56,6 +56,9 @@ _EXPORTS: dict[str, str] = {
     "LevelResult": "surface.level", "level_for_fraction": "surface.level",
     "Surface": "surface.model",
     "Topology": "surface.topology", "split_components": "surface.topology", "topology": "surface.topology",
+    **dict.fromkeys(("FigureOptions", "LayoutOptions", "SectionOptions", "RadialOptions", "MeshOptions",
+                     "DescribeOptions", "figure_job", "section_job", "radial_job", "mesh_job",
+                     "describe_job"), "jobs"),
 }
 
 
@@ -89,4 +92,6 @@ __all__ = [
     "Camera", "render_surfaces", "figure_3d", "surface_title", "small_multiples", "time_strip",
     "time_labels", "beat_period_au", "draw_axis_triad", "shell_states",
     "load_config", "run_gallery",
+    "FigureOptions", "LayoutOptions", "SectionOptions", "RadialOptions", "MeshOptions", "DescribeOptions",
+    "figure_job", "section_job", "radial_job", "mesh_job", "describe_job",
 ]

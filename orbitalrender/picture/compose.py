@@ -21,7 +21,7 @@ from dataclasses import dataclass
 from ..state.notation import conditions_label, pretty_label
 from ..surface.model import Surface
 from .camera import as_surfaces
-from .legend import check_text_size
+from .output import check_text_size
 from .scene import Render, render_surfaces
 from .triad import draw_axis_triad, wants_triad
 

@@ -20,8 +20,6 @@ from ..colormap import PHASE_SCHEMES, phase_to_rgb, sign_colours
 from ..state.units import a0_to, unit_label
 
 __all__ = [
-    "TEXT_SIZE_RANGE_PT",
-    "check_text_size",
     "nice_length",
     "draw_phase_legend",
     "draw_phase_wheel",
@@ -36,25 +34,6 @@ _CORNERS = ("lower left", "lower right", "upper left", "upper right")
 #: Phase marks of the wheel: (angle in rad, label in mathtext).
 _WHEEL_MARKS = ((0.0, "0"), (0.5 * math.pi, r"$\pi/2$"), (math.pi, r"$\pi$"),
                 (1.5 * math.pi, r"$3\pi/2$"))
-
-
-#: Text sizes accepted for pictures, points at the output size: below 4 pt nothing prints
-#: legibly, above 96 pt one title line would fill a slide (our bounds).
-TEXT_SIZE_RANGE_PT = (4.0, 96.0)
-
-
-def check_text_size(size_pt: float) -> float:
-    """`size_pt` as float, or ValueError unless it lies in :data:`TEXT_SIZE_RANGE_PT`.
-
-    Examples
-    --------
-    >>> check_text_size(12)
-    12.0
-    """
-    lo, hi = TEXT_SIZE_RANGE_PT
-    if not (math.isfinite(size_pt) and lo <= size_pt <= hi):
-        raise ValueError(f"the text size must be {lo:g} to {hi:g} pt, got {size_pt:g}")
-    return float(size_pt)
 
 
 def nice_length(at_most: float) -> float:

@@ -57,6 +57,8 @@ __all__ = [
     "DPI_RANGE",
     "check_dpi",
     "check_output_paths",
+    "TEXT_SIZE_RANGE_PT",
+    "check_text_size",
     "SAVE_RC",
 ]
 
@@ -191,6 +193,25 @@ def check_dpi(dpi: float) -> float:
     if not lo <= dpi <= hi:
         raise ValueError(f"dots per inch must be {lo:g} to {hi:g}, got {dpi:g}")
     return float(dpi)
+
+
+#: Text sizes accepted for pictures, points at the output size: below 4 pt nothing prints
+#: legibly, above 96 pt one title line would fill a slide (our bounds).
+TEXT_SIZE_RANGE_PT = (4.0, 96.0)
+
+
+def check_text_size(size_pt: float) -> float:
+    """`size_pt` as float, or ValueError unless it lies in :data:`TEXT_SIZE_RANGE_PT`.
+
+    Examples
+    --------
+    >>> check_text_size(12)
+    12.0
+    """
+    lo, hi = TEXT_SIZE_RANGE_PT
+    if not (math.isfinite(size_pt) and lo <= size_pt <= hi):
+        raise ValueError(f"the text size must be {lo:g} to {hi:g} pt, got {size_pt:g}")
+    return float(size_pt)
 
 
 def check_output_paths(out: str | os.PathLike | None, report: str | os.PathLike | None = None) -> Path | None:

@@ -37,7 +37,7 @@ from ..state.properties import most_probable_radius, radial_node_radii, shell_of
 from ..state.radial import radial_cumulative, radius_holding
 from ..state.units import a0_to, unit_label
 from ..surface.level import check_fraction
-from .legend import check_text_size
+from .output import check_text_size
 
 __all__ = [
     "RADIAL_QUANTITIES",

@@ -29,8 +29,9 @@ from ..colormap import PHASE_SCHEMES, phase_to_rgb
 from ..state.notation import conditions_label, pretty_label
 from ..state.units import a0_to, unit_label
 from .density import density_weight, shade
-from .legend import check_text_size, draw_phase_legend
+from .legend import draw_phase_legend
 from .nodal import SectionLines
+from .output import check_text_size
 from .section import Section
 
 __all__ = ["draw_section", "section_figure", "section_metadata", "section_title", "SECTION_TEXT_PT"]
