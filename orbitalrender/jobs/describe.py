@@ -68,6 +68,8 @@ def describe_field(lattice, source: str = "") -> dict:
     """
     import numpy as np
 
+    from ..state.phase import real_rotation
+
     density = lattice.density()
     return {
         "kind": "field",
@@ -79,7 +81,7 @@ def describe_field(lattice, source: str = "") -> dict:
         "extent_a0": [list(e) for e in lattice.extent_a0()],
         "norm": float(np.sum(density, dtype=np.float64) * lattice.voxel_volume_a0_3),
         "max_abs_psi": float(np.sqrt(np.max(density))),
-        "is_real": bool(not np.any(lattice.values.imag)),
+        "is_real": real_rotation(lattice.values) is not None,  # up to one global phase
     }
 
 

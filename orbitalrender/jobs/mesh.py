@@ -94,7 +94,9 @@ def check_mesh(options: MeshOptions, file: str, name: Callable[[str], str], *, s
         if joined:
             raise UserInputError(f"{name('split')} writes bodies for multi-material printing and does not "
                                  f"go with {name(joined[0])}")
-        if options.split == "sign" and state is not None and not state.is_real:
+        from ..state.phase import is_real
+
+        if options.split == "sign" and state is not None and not is_real(state):
             raise UserInputError(f"{name('split')} sign needs a real state (psi real up to one global "
                                  "phase); split by phase for a complex state")
         if one_file and options.split == "phase":
