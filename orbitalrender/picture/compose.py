@@ -104,8 +104,8 @@ class FigureGeometry:
         return self.ncols * pw + self.legend_px, self.nrows * (ph + self.title_px)
 
 
-def fit_geometry(width_px: int, height_px: int, ncols: int = 1, nrows: int = 1, titles: bool = True,
-                 legend: bool = True, dpi: float = 100.0, *,
+def fit_geometry(width_px: int, height_px: int, *, ncols: int = 1, nrows: int = 1, titles: bool = True,
+                 legend: bool = True, dpi: float = 100.0,
                  text_size_pt: float | None = None) -> FigureGeometry:
     """The geometry whose panels fill a figure of about `width_px` x `height_px`.
 
@@ -144,9 +144,9 @@ def fit_geometry(width_px: int, height_px: int, ncols: int = 1, nrows: int = 1, 
     return FigureGeometry(int(ncols), int(nrows), (pw, ph), title_px, legend_px, float(dpi), fs, title_pt)
 
 
-def compose_figure(renders: Sequence[Render], geometry: FigureGeometry,
+def compose_figure(renders: Sequence[Render], geometry: FigureGeometry, *,
                    titles: Sequence[str] | None = None, units: str = "a0", legend: bool = True,
-                   scale_bar: bool = True, transparent: bool = False, *, triad: bool = False):
+                   scale_bar: bool = True, transparent: bool = False, triad: bool = False):
     """Place renders in a grid with titles, one phase legend and one scale bar.
 
     The renders are shown pixel for pixel (``imshow``, no resampling), so the scale bar,
@@ -259,9 +259,9 @@ def _fit_width(text, width_px: float) -> None:
         text.set_fontsize(text.get_fontsize() * width_px / wide * 0.98)
 
 
-def figure_3d(surfaces: Surface | Sequence[Surface], width_px: int = 900, height_px: int = 800,
+def figure_3d(surfaces: Surface | Sequence[Surface], width_px: int = 900, height_px: int = 800, *,
               dpi: float = 100.0, title: str | None = None, units: str = "a0", legend: bool = True,
-              scale_bar: bool = True, transparent: bool = False, *, triad: str = "auto",
+              scale_bar: bool = True, transparent: bool = False, triad: str = "auto",
               text_size_pt: float | None = None, **render_options):
     """One render with its title, phase legend and scale bar, as a matplotlib Figure.
 
@@ -291,13 +291,13 @@ def figure_3d(surfaces: Surface | Sequence[Surface], width_px: int = 900, height
     if title is None:
         title = surface_title(surfaces[0])
     show_triad = wants_triad(triad, [s.state for s in surfaces])
-    geometry = fit_geometry(width_px, height_px, 1, 1, bool(title), legend or scale_bar or show_triad, dpi,
-                            text_size_pt=text_size_pt)
+    geometry = fit_geometry(width_px, height_px, titles=bool(title),
+                            legend=legend or scale_bar or show_triad, dpi=dpi, text_size_pt=text_size_pt)
     background = None if transparent else render_options.pop("background", (1.0, 1.0, 1.0))
     render_options.pop("background", None)
     render = render_surfaces(surfaces, *geometry.panel_px, background=background, **render_options)
-    fig = compose_figure([render], geometry, [title] if title else None, units, legend, scale_bar,
-                         transparent, triad=show_triad)
+    fig = compose_figure([render], geometry, titles=[title] if title else None, units=units, legend=legend,
+                         scale_bar=scale_bar, transparent=transparent, triad=show_triad)
     return fig, render
 
 
