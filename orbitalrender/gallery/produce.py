@@ -378,8 +378,9 @@ def _render_thumbnail(surface: Surface, phase_map: str) -> Callable[[Path], None
         from ..picture.compose import figure_3d
         from ..picture.output import save_figure
 
+        # a preview of the file: the whole thumbnail for the surface, no legend column
         fig, _ = figure_3d(surface, THUMBNAIL_PX, THUMBNAIL_PX, dpi=100.0, title="", legend=False,
-                           scale_bar=False, phase_map=phase_map, supersample=2)
+                           scale_bar=False, triad="off", phase_map=phase_map, supersample=2)
         save_figure(fig, target, {})
     return make
 
