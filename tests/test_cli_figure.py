@@ -142,3 +142,14 @@ def test_a_field_file_gives_the_same_surface_as_its_state(tmp_path, capsys):
                  "--report", str(mesh_report)]) == 0
     assert json.loads(mesh_report.read_text())["components"] == 2
     capsys.readouterr()
+
+
+def test_text_size_and_triad_refusals(tmp_path, capsys):
+    out = tmp_path / "x.png"
+    status, _, err = _run(capsys, "2pz", *LOW, "--text-size", "200", "--out", str(out))
+    assert status == 2 and "--text-size must be a number in [4, 96], got 200.0" in err
+    status, _, err = _run(capsys, "2pz", *LOW, "--triad", "maybe", "--out", str(out))
+    assert status == 2 and "--triad must be one of 'auto', 'on', 'off'" in err
+    assert not out.exists()
+    for argv in (["--text-size", "14", "--triad", "off"], ["--triad", "on"]):
+        assert _run(capsys, "2s", *LOW, *argv, "--out", str(out))[0] == 0

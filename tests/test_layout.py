@@ -10,17 +10,21 @@ import math
 
 import numpy as np
 import pytest
+from scipy import constants
 from scipy.optimize import brentq
 
 from orbitalrender.picture.camera import Camera
 from orbitalrender.picture.layout import (
+    beat_period_au,
     default_columns,
     shared_cameras,
     shell_states,
     small_multiples,
+    time_labels,
     time_strip,
 )
 from orbitalrender.state.model import eigenstate, real_orbital, superpose
+from orbitalrender.state.notation import parse_state
 from orbitalrender.surface.extract import extract_surface
 
 SIDE = Camera(azimuth_deg=0.0, elevation_deg=0.0)
@@ -70,7 +74,8 @@ def test_time_strip_frames_follow_the_beat_and_share_one_centre():
     assert np.abs(a0 - a1).mean() < 0.01
     assert np.abs(a0 - a_half).mean() > 0.05
     assert np.abs(a0 - a_half[::-1]).mean() < np.abs(a0 - a_half).mean() / 2
-    assert [t.get_text() for t in fig.texts][:2] == ["t = 0 au", f"t = {0.5 * period:g} au"]
+    # the times are whole fractions of the period, so the titles say so, and the first gives T
+    assert [t.get_text() for t in fig.texts][:3] == [f"t = 0 (T = {period:.3g} au)", "t = T/2", "t = T"]
 
 
 def test_shell_states_cover_the_shell():
@@ -89,3 +94,33 @@ def test_default_columns_make_near_square_grids():
         cols = default_columns(count)
         rows = math.ceil(count / cols)
         assert cols * rows >= count and 0 <= cols - rows <= 1
+
+
+def test_beat_period_is_the_closed_form():
+    # two energies: T = 2 pi hbar / (E_2 - E_1), E_n = -Z^2 mu / (2 n^2) hartree (Bohr levels)
+    assert beat_period_au(parse_state("1s + 2pz")) == pytest.approx(2 * math.pi / (3 / 8), rel=1e-14)
+    he = superpose([(1, eigenstate(1, 0, 0, Z=2.0)), (1, eigenstate(2, 1, 0, Z=2.0))])
+    assert beat_period_au(he) == pytest.approx(2 * math.pi / (4 * 3 / 8), rel=1e-14)
+    # three energies: the beats 3/8, 5/72 and 4/9 hartree are all multiples of 1/72, so
+    # |psi|^2 repeats after 2 pi * 72 (and not before: 5/72 and 27/72 share no factor)
+    assert beat_period_au(parse_state("1s + 2pz + 3dz2")) == pytest.approx(144 * math.pi, rel=1e-14)
+    assert beat_period_au(parse_state("2s + 2pz")) is None  # one energy: nothing moves
+
+
+def test_time_labels_follow_the_unit_given():
+    state = parse_state("1s + 2pz")
+    T = 2 * math.pi / (3 / 8)
+    # the demo's quarter periods, typed to 6 significant digits, are read as quarters
+    quarters = [0.0, 4.18879, 8.37758, 12.56637]
+    assert time_labels(state, quarters) == ["t = 0 (T = 16.8 au)", "t = T/4", "t = T/2", "t = 3T/4"]
+    assert time_labels(state, [T, 1.5 * T, -T / 3])[1:] == ["t = 3T/2", "t = \u2212T/3"]
+    # 0.2 % of a period off a quarter is more than PERIOD_TOLERANCE: plain numbers
+    assert time_labels(state, [0.0, T / 4 + 0.002 * T]) == ["t = 0 au", "t = 4.22 au"]
+    # femtoseconds with 3 significant digits; hbar / E_h = 2.4188843e-17 s (CODATA, scipy.constants)
+    au_s = constants.physical_constants["atomic unit of time"][0]
+    assert time_labels(state, [0.0, T / 4], "fs") == ["t = 0 fs", f"t = {T / 4 * au_s * 1e15:.3g} fs"]
+    assert time_labels(state, [T / 4], "fs") == ["t = 0.101 fs"]
+    # more digits only where two titles would otherwise read alike
+    assert time_labels(state, [1.0001, 1.0002]) == ["t = 1.0001 au", "t = 1.0002 au"]
+    with pytest.raises(ValueError, match="time unit"):
+        time_labels(state, [0.0], "s")

@@ -8,10 +8,12 @@ import zlib
 import matplotlib.artist
 import matplotlib.figure
 import numpy as np
+import pypdf
 import pytest
 from PIL import Image
 
 from orbitalrender import __version__
+from orbitalrender.cli import main
 from orbitalrender.picture.output import (
     METADATA_KEY,
     default_output_path,
@@ -150,3 +152,86 @@ def test_default_output_path_is_safe():
         assert p.parent == type(p)(".") and p.name.endswith("-section.png")
         assert re.fullmatch(r"[A-Za-z0-9._+-]+", p.name) and not p.name.startswith(".")
         assert len(p.name) < 100
+
+
+def _svg_texts(path) -> list[str]:
+    """The contents of the SVG's <text> elements (SVG 1.1, section 10.4) with tags and white space
+    stripped (typeset labels put each glyph in a <tspan> of its own, on its own line)."""
+    svg = path.read_text()
+    return [re.sub(r"\s+", "", re.sub(r"<[^>]+>", "", t))
+            for t in re.findall(r"<text\b[^>]*>(.*?)</text>", svg, re.S)]
+
+
+def _pdf_fonts(path) -> list[tuple[str, str, bool]]:
+    """(font subtype, glyph program subtype, embedded) of every font the PDF uses, read by pypdf
+    (an outside reader that resolves references and object streams) from the resources of
+    every page and every form XObject inside them (ISO 32000-1, 9.6-9.9)."""
+    found, seen = [], set()
+
+    def visit(resources):
+        if resources is None:
+            return
+        resources = resources.get_object()
+        for font in (resources.get("/Font") or {}).values():
+            font = font.get_object()
+            if id(font) in seen:
+                continue
+            seen.add(id(font))
+            subtype = str(font["/Subtype"])
+            program = font
+            if subtype == "/Type0":  # composite font: the glyphs live in its descendant
+                program = font["/DescendantFonts"][0].get_object()
+            descriptor = program.get("/FontDescriptor")
+            descriptor = descriptor.get_object() if descriptor is not None else {}
+            embedded = any(k in descriptor for k in ("/FontFile", "/FontFile2", "/FontFile3"))
+            found.append((subtype, str(program["/Subtype"]), embedded))
+        for xobject in (resources.get("/XObject") or {}).values():
+            xobject = xobject.get_object()
+            if xobject.get("/Subtype") == "/Form":
+                visit(xobject.get("/Resources"))
+
+    for page in pypdf.PdfReader(path).pages:
+        visit(page.get("/Resources"))
+    return found
+
+
+def test_saved_text_is_text(tmp_path):
+    svg = save_figure(_figure(), tmp_path / "f.svg", _metadata())
+    assert any("2p" in t for t in _svg_texts(svg))
+    fonts = _pdf_fonts(save_figure(_figure(), tmp_path / "f.pdf", _metadata()))
+    assert fonts and all(sub != "/Type3" and prog in ("/TrueType", "/CIDFontType2") and emb
+                         for sub, prog, emb in fonts), fonts
+
+
+# One call of every picture command, small and fast; words expected among the SVG's text
+# (white space left out).
+_COMMANDS = {
+    "figure": (["figure", "2pz", "--resolution", "32", "--size", "300x240", "--supersample", "1"],
+               "F=0.9"),
+    "layout": (["figure", "2px", "2py", "--resolution", "32", "--size", "420x240", "--supersample", "1"],
+               "F=0.9"),
+    "strip": (["figure", "1s + 2pz", "--times", "0,4.18879", "--resolution", "32", "--size", "420x240",
+               "--supersample", "1"], "t="),
+    "section": (["section", "3dz2", "--pixels", "40"], "plane"),
+    "radial": (["radial", "2s", "3pz"], "node"),
+    # the point cloud, where the command exists (its own defaults; the title names the state)
+    "cloud": (["cloud", "2pz"], "2p"),
+}
+
+
+@pytest.mark.parametrize("command", sorted(_COMMANDS))
+def test_every_picture_command_keeps_text_as_text(tmp_path, capsys, command):
+    from orbitalrender.cli import COMMANDS
+
+    argv, word = _COMMANDS[command]
+    if argv[0] not in COMMANDS:
+        pytest.skip(f"no {argv[0]} command in this build")
+    svg, pdf = tmp_path / "p.svg", tmp_path / "p.pdf"
+    assert main([*argv, "--out", str(svg)]) == 0, capsys.readouterr().err
+    texts = _svg_texts(svg)
+    assert len(texts) >= 3 and any(word in t for t in texts), texts
+    assert main([*argv, "--out", str(pdf)]) == 0, capsys.readouterr().err
+    fonts = _pdf_fonts(pdf)
+    # no Type 3 font; every font a TrueType program (Type 42 in matplotlib's terms), embedded
+    assert fonts and all(sub != "/Type3" and prog in ("/TrueType", "/CIDFontType2") and emb
+                         for sub, prog, emb in fonts), fonts

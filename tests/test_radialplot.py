@@ -38,7 +38,7 @@ def test_3s_node_radii_are_the_closed_form_roots():
     # the open circles sit on R = 0 at the nodes
     (circles,) = [ln for ln in ax.lines if ln.get_marker() == "o"]
     np.testing.assert_allclose(circles.get_xdata(), expected, rtol=1e-10)
-    np.testing.assert_allclose(circles.get_ydata(), 0.0)
+    np.testing.assert_allclose(circles.get_ydata(), 0.0, atol=1e-12)
 
 
 @pytest.mark.parametrize("n, Z", [(2, 1.0), (3, 1.0), (2, 2.0), (4, 3.0)])
@@ -83,8 +83,10 @@ def test_R_curves_match_sympy():
     states = [eigenstate(3, 1, -1, label="3,1,-1"), real_orbital(4, 2, 2, Z=2.0, label="4dx2-y2 (Z=2)")]
     fig, _ = radial_figure(states, ["R"])
     ax = fig.axes[0]
-    names = (pretty_label("3,1,-1"), "4dx2-y2 (Z=2)")  # the legend typesets |n, l, m>
+    # the legend typesets |n, l, m> and, as the states' Z differ, names Z where it is not 1
+    names = (pretty_label("3,1,-1"), "4dx2-y2 (Z=2), Z = 2")
     curves = [ln for ln in ax.lines if ln.get_label() in names]
+    assert len(curves) == 2
     for line, (n, l, Z) in zip(curves, [(3, 1, 1), (4, 2, 2)]):
         ref = lambdify(r_, R_nl(n, l, r_, Z), "numpy")
         x = np.asarray(line.get_xdata())
@@ -115,3 +117,47 @@ def test_all_panels_share_the_radial_axis():
     assert fig.axes[-1].get_xlabel() == "$r$ ($a_0$)"
     # 3p: one radial node, at 6 a0 (R_31 ~ r (6 - r) e^{-r/3}, closed form)
     np.testing.assert_allclose(marks[1].node_radii_a0, [6.0], rtol=1e-10)
+
+
+def test_values_are_worded_with_their_radii():
+    # 2s: one node at 2 a0; 3s: two at (9 -+ 3 sqrt 3)/2 = 1.90, 7.10 a0 (closed forms above)
+    fig, marks = radial_figure([parse_state("1s"), parse_state("2s"), parse_state("3s")])
+    texts = "\n".join(t.get_text() for t in fig.texts)
+    assert "no radial node" in texts
+    assert "node at r = 2.00 $a_0$" in texts
+    assert "nodes at r = 1.90, 7.10 $a_0$" in texts
+    assert "nodes: " not in texts
+
+
+def test_each_mark_only_in_its_own_panel():
+    # nodes in the R panel, the most probable radius (4 a0 for 2p, n^2/Z) in the density panel,
+    # the radius holding F in the cumulative panel
+    fig, marks = radial_figure([parse_state("3s"), parse_state("2pz")])
+    r_panel, d_panel, c_panel = fig.axes
+    nodes = [r for m in marks for r in m.node_radii_a0]
+    peaks = [m.most_probable_a0 for m in marks]
+    holds = [m.holding_a0 for m in marks]
+    assert peaks[1] == pytest.approx(4.0, rel=1e-8)
+    for ax, own in ((r_panel, nodes), (d_panel, peaks), (c_panel, holds)):
+        assert sorted(_vertical_lines(ax)) == pytest.approx(sorted(own), rel=1e-12)
+    # one quantity shown: every mark in that panel
+    fig, marks = radial_figure([parse_state("3s")], ["density"])
+    assert len(_vertical_lines(fig.axes[0])) == 2 + 1 + 1
+
+
+def test_title_states_Z_and_the_nucleus():
+    fig, _ = radial_figure([parse_state("2s")])
+    assert fig._suptitle.get_text() == "Radial functions of 2s"
+    fig, _ = radial_figure([eigenstate(2, 0, 0, Z=2.0, label="2s")])
+    assert fig._suptitle.get_text() == "Radial functions of 2s, Z = 2"
+    positronium = eigenstate(1, 0, 0, reduced_mass_ratio=0.5, label="1s")  # mu = m_e / 2
+    fig, _ = radial_figure([positronium])
+    assert "0.5 $m_e$ (positronium)" in fig._suptitle.get_text()
+
+
+def test_text_size_scales_the_title():
+    small, _ = radial_figure([parse_state("2s")], text_size_pt=8)
+    large, _ = radial_figure([parse_state("2s")], text_size_pt=20)
+    assert small._suptitle.get_fontsize() == 8 and large._suptitle.get_fontsize() == 20
+    with pytest.raises(ValueError, match="text size"):
+        radial_figure([parse_state("2s")], text_size_pt=0.5)

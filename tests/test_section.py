@@ -21,7 +21,7 @@ from orbitalrender.picture.nodal import level_contour, nodal_lines, section_line
 from orbitalrender.picture.output import save_figure
 from orbitalrender.picture.plane import plane
 from orbitalrender.picture.section import cross_section
-from orbitalrender.picture.section_figure import draw_section, section_figure
+from orbitalrender.picture.section_figure import draw_section, section_figure, section_title
 from orbitalrender.state.model import eigenstate, real_orbital, superpose
 from orbitalrender.state.units import a0_to
 
@@ -255,3 +255,24 @@ def test_figure_looks_sane(tmp_path):
     with Image.open(out) as im:
         rgb = np.asarray(im.convert("RGB"), dtype=float) / 255
     assert 0.3 < np.mean(np.all(rgb > 0.97, axis=-1)) < 0.95
+
+
+def test_section_titles_are_typeset_and_state_Z():
+    # the raw label 3dz2 is typeset as in 3D titles, whoever passes it; Z = 2 is named
+    s = cross_section(real_orbital(3, 2, 0, label="3dz2"), plane("xz"), half_width_a0=8.0, pixels=16,
+                      fraction=None)
+    fig = section_figure(s, section_lines(s), label="3dz2")
+    assert fig.axes[0].get_title() == "3d$_{z^{2}}$: xz plane, y = 0 $a_0$"
+    he = cross_section(eigenstate(2, 1, 1, Z=2.0, label="2,1,1"), plane("xy"), half_width_a0=4.0, pixels=16,
+                       fraction=None)
+    assert section_title(he).startswith(r"$|2, 1, 1\rangle$, Z = 2: ")
+
+
+def test_section_text_size():
+    s = cross_section(real_orbital(2, 1, 0, label="2pz"), plane("xz"), half_width_a0=8.0, pixels=16,
+                      fraction=None)
+    fig = section_figure(s, section_lines(s), text_size_pt=18)
+    assert fig.axes[0].title.get_fontsize() == 18
+    assert fig.axes[0].xaxis.label.get_fontsize() == pytest.approx(0.85 * 18)
+    with pytest.raises(ValueError, match="text size"):
+        section_figure(s, section_lines(s), text_size_pt=1)

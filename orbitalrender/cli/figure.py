@@ -89,7 +89,7 @@ def run(options: LayoutOptions, args: argparse.Namespace) -> int:
         check_writable(out)
     fig, metadata = figure_job(states, options, surface_for=surface_for, times_au=times)
     write_picture(fig, out, metadata, dpi=options.dpi, transparent=options.transparent,
-                  report=options.report, text_labels=True)
+                  report=options.report)
     print(f"wrote {out}")
     return 0
 

@@ -419,8 +419,10 @@ def _render_thumbnail(surface: Surface, phase_map: str, cut: bool = False) -> Ca
 
         middle_y = 0.5 * (surface.vertices_a0[:, 1].min() + surface.vertices_a0[:, 1].max())
         cutaway = parse_cutaway(f"y>{middle_y:.9g}") if cut else None
+        # a preview of the file: the whole thumbnail for the surface, no legend column
         fig, _ = figure_3d(surface, THUMBNAIL_PX, THUMBNAIL_PX, dpi=100.0, title="", legend=False,
-                           scale_bar=False, phase_map=phase_map, supersample=2, cutaway=cutaway)
+                           scale_bar=False, triad="off", phase_map=phase_map, supersample=2,
+                           cutaway=cutaway)
         save_figure(fig, target, {})
     return make
 

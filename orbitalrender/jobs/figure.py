@@ -14,6 +14,7 @@ from dataclasses import dataclass
 from typing import Any, ClassVar
 
 from ..picture.camera import PROJECTIONS
+from ..picture.triad import TRIAD_MODES
 from .option import option
 from .shared import (
     FRACTION,
@@ -100,6 +101,9 @@ class FigureOptions(FileOptions, PictureOptions, LatticeOptions, FieldOptions, S
         lo=0, hi=1, lo_open=True, metavar="ALPHA")
     nodal_axis: bool = option(False, "draw the nodal z axis as a dashed line (states whose terms all "
                               "have m != 0)", type="bool")
+    triad: str = option("auto", "x, y, z axis arrows as the camera sees them, beside the picture: auto "
+                        "(unless every state is spherically symmetric), on or off", type="text",
+                        choices=TRIAD_MODES)
 
 
 @dataclass(frozen=True)
@@ -133,7 +137,7 @@ def picture_size(options: FigureOptions, count: int, ncols: int, panels: bool = 
 
     panel = getattr(options, "panel_px", PANEL_PX)
     nrows = -(-count // ncols)
-    probe = fit_geometry(10 * panel, panel + 30, dpi=options.dpi)
+    probe = fit_geometry(10 * panel, panel + 30, dpi=options.dpi, text_size_pt=options.text_size_pt)
     return (options.width_px or ncols * panel + probe.legend_px,
             options.height_px or nrows * (panel + probe.title_px))
 
@@ -195,7 +199,7 @@ def figure_job(states: Sequence, options: FigureOptions, *,
     from ..picture.camera import Camera
     from ..picture.compose import figure_3d, surface_title
     from ..picture.cutaway import parse_cutaway
-    from ..picture.layout import default_columns, small_multiples
+    from ..picture.layout import default_columns, small_multiples, time_labels
     from ..picture.output import figure_metadata
 
     def surface(state):
@@ -207,7 +211,8 @@ def figure_job(states: Sequence, options: FigureOptions, *,
                   translucent_outer=options.translucent_outer, nodal_axis=options.nodal_axis,
                   supersample=options.supersample)
     compose = dict(dpi=options.dpi, units=options.units, legend=options.legend,
-                   scale_bar=options.legend, transparent=options.transparent)
+                   scale_bar=options.legend, transparent=options.transparent, triad=options.triad,
+                   text_size_pt=options.text_size_pt)
     if options.phase_map == "sign":  # refuse a complex state before its surfaces are made
         from ..state.model import State
         from ..state.phase import sign_rotation
@@ -232,8 +237,7 @@ def figure_job(states: Sequence, options: FigureOptions, *,
                              fraction_enclosed=first.fraction_enclosed, triangles=int(len(first.faces)),
                              px_per_a0=rendered.px_per_a0, **common, **source)
         return fig, md
-    unit = options.time_unit
-    titles = ([f"t = {t:g} {unit}" for t in options.times] if strip else
+    titles = (time_labels(first.state, times_au, options.time_unit) if strip else
               [surface_title(s) for s in surfaces])
     fig, renders = small_multiples(surfaces, titles, ncols=ncols, width_px=size[0], height_px=size[1],
                                    shared_target=strip, **compose, **render)

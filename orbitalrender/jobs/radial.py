@@ -62,5 +62,5 @@ def radial_job(states: Sequence, options: RadialOptions) -> tuple[Any, dict[str,
 
     quantities = list(parse_quantities(options.quantity))
     fig, marks = radial_figure(list(states), quantities, fraction=options.fraction, units=options.units,
-                               title=options.title)
+                               title=options.title, text_size_pt=options.text_size_pt)
     return fig, radial_metadata(list(states), marks, quantities, units=options.units, dpi=options.dpi)

@@ -125,6 +125,7 @@ def section_job(source: Any, options: SectionOptions, *, label: str,
     lines = section_lines(section, nodes=options.nodes)
     style = dict(scheme=options.phase_map, scale=options.scale, decades=options.decades,
                  units=options.units)
-    fig = section_figure(section, lines, **style, title=options.title, label=label)
+    fig = section_figure(section, lines, **style, title=options.title, label=label,
+                         text_size_pt=options.text_size_pt)
     md = section_metadata(section, lines, **style, source=options.field, dpi=options.dpi)
     return fig, md

@@ -14,7 +14,7 @@ from dataclasses import dataclass
 from typing import Any
 
 from ..colormap import PHASE_SCHEMES as PHASE_MAPS
-from ..picture.output import DPI_RANGE
+from ..picture.output import DPI_RANGE, TEXT_SIZE_RANGE_PT
 from .option import Options, option
 
 __all__ = ["StateOptions", "FieldOptions", "LatticeOptions", "PictureOptions", "FileOptions",
@@ -102,6 +102,10 @@ class PictureOptions(Options):
     title: str | None = option(None, "title (default: from the state)", type="text")
     dpi: float = option(200.0, "dots per inch of the picture", lo=DPI_RANGE[0], hi=DPI_RANGE[1])
     transparent: bool = option(False, "transparent background", type="bool")
+    text_size_pt: float | None = option(
+        None, "size of the titles in points at the output size; the other text follows at fixed "
+              "ratios (default: sized for the picture, readable on a projected slide)",
+        lo=TEXT_SIZE_RANGE_PT[0], hi=TEXT_SIZE_RANGE_PT[1], unit="pt", flag="--text-size", metavar="PT")
 
 
 @dataclass(frozen=True)

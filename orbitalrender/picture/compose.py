@@ -3,6 +3,13 @@
 :func:`fit_geometry` lays out a grid of equal panels with a legend column,
 :func:`compose_figure` places finished renders in it pixel for pixel, and
 :func:`figure_3d` renders and composes one picture.
+
+Text sizes are chosen for a projected slide as well as for print: by default a panel
+title is 1/20 of the height of its grid cell, the legend text 0.6 of that (at least the
+7-12 pt rule of printed figures); ``text_size_pt`` sets the title size in points at the
+output size instead, the rest following at the same ratio.  A title wider than its
+panel is made smaller until it fits.  The axis triad (:mod:`.triad`) sits in the
+legend column, where it never hides a surface.
 """
 
 from __future__ import annotations
@@ -11,13 +18,15 @@ import math
 from collections.abc import Sequence
 from dataclasses import dataclass
 
-from ..state.notation import pretty_label
+from ..state.notation import conditions_label, pretty_label
 from ..surface.model import Surface
 from .camera import as_surfaces
+from .output import check_text_size
 from .scene import Render, render_surfaces
+from .triad import draw_axis_triad, wants_triad
 
-__all__ = ["FigureGeometry", "fit_geometry", "figure_fontsize", "compose_figure", "figure_3d",
-           "surface_title"]
+__all__ = ["FigureGeometry", "fit_geometry", "figure_fontsize", "title_fontsize", "compose_figure",
+           "figure_3d", "surface_title"]
 
 #: Text size relative to the figure height (our choice: about 10 pt on an 8 in tall figure),
 #: kept within 7-12 pt, the range journals ask for in printed figures (common practice).
@@ -25,6 +34,14 @@ _FONT_PER_HEIGHT = 0.018
 _FONT_RANGE_PT = (7.0, 12.0)
 #: The legend column is this many font heights wide.
 _LEGEND_WIDTH_EM = 11.0
+#: Title size as a share of the height of one grid cell (title band and panel): 1/20.
+_TITLE_PER_CELL = 1.0 / 20.0
+#: The title band is this many title font heights tall.
+_TITLE_BAND_EM = 1.9
+#: Legend text relative to the title text.
+_LABEL_PER_TITLE = 0.6
+#: A title may fill this share of its panel's width before it is made smaller.
+_TITLE_WIDTH_SHARE = 0.96
 
 
 def figure_fontsize(height_px: int, dpi: float) -> float:
@@ -37,6 +54,18 @@ def figure_fontsize(height_px: int, dpi: float) -> float:
     """
     pt = height_px / dpi * 72.0 * _FONT_PER_HEIGHT
     return round(float(min(max(pt, _FONT_RANGE_PT[0]), _FONT_RANGE_PT[1])), 3)
+
+
+def title_fontsize(cell_height_px: float, dpi: float) -> float:
+    """Default panel title size (pt): 1/20 of a grid cell `cell_height_px` tall (title band and
+    panel), so the title reads on a projected slide; at least the 7 pt of print.
+
+    Examples
+    --------
+    >>> title_fontsize(320, 100)
+    11.52
+    """
+    return round(max(cell_height_px * _TITLE_PER_CELL * 72.0 / dpi, _FONT_RANGE_PT[0]), 3)
 
 
 @dataclass(frozen=True)
@@ -54,6 +83,9 @@ class FigureGeometry:
         Width of the legend column (0: none).
     dpi : float
     fontsize_pt : float
+        Size of the legend and scale bar text.
+    title_pt : float
+        Size of the panel titles.
     """
 
     ncols: int
@@ -63,6 +95,7 @@ class FigureGeometry:
     legend_px: int
     dpi: float
     fontsize_pt: float
+    title_pt: float
 
     @property
     def size_px(self) -> tuple[int, int]:
@@ -72,11 +105,14 @@ class FigureGeometry:
 
 
 def fit_geometry(width_px: int, height_px: int, *, ncols: int = 1, nrows: int = 1, titles: bool = True,
-                 legend: bool = True, dpi: float = 100.0) -> FigureGeometry:
+                 legend: bool = True, dpi: float = 100.0,
+                 text_size_pt: float | None = None) -> FigureGeometry:
     """The geometry whose panels fill a figure of about `width_px` x `height_px`.
 
     The figure comes out at most ncols - 1 px narrower and nrows - 1 px lower than asked
-    (panels have whole pixels).
+    (panels have whole pixels).  `text_size_pt` is the title size in points (default
+    :func:`title_fontsize` of a grid cell); the legend text is 0.6 of it, and at least
+    :func:`figure_fontsize` when the size is chosen here.
 
     Raises
     ------
@@ -86,26 +122,31 @@ def fit_geometry(width_px: int, height_px: int, *, ncols: int = 1, nrows: int = 
     Examples
     --------
     >>> g = fit_geometry(900, 800)
-    >>> g.size_px, g.panel_px
-    ((900, 800), (742, 771))
+    >>> g.size_px, g.panel_px, g.title_pt, g.fontsize_pt
+    ((900, 800), (636, 724), 28.8, 17.28)
     """
     if not (dpi > 0 and math.isfinite(dpi)) or not 10 <= dpi <= 2400:
         raise ValueError(f"dpi must lie in [10, 2400], got {dpi}")
-    fs = figure_fontsize(height_px, dpi)
+    if text_size_pt is None:
+        title_pt = title_fontsize(int(height_px) / int(nrows), dpi)
+        fs = max(figure_fontsize(height_px, dpi), round(_LABEL_PER_TITLE * title_pt, 3))
+    else:
+        title_pt = check_text_size(text_size_pt)
+        fs = round(_LABEL_PER_TITLE * title_pt, 3)
     em = fs * dpi / 72.0
-    title_px = int(round(2.0 * em)) if titles else 0
+    title_px = int(round(_TITLE_BAND_EM * title_pt * dpi / 72.0)) if titles else 0
     legend_px = int(round(_LEGEND_WIDTH_EM * em)) if legend else 0
     pw = (int(width_px) - legend_px) // int(ncols)
     ph = int(height_px) // int(nrows) - title_px
     if pw < 16 or ph < 16:
         raise ValueError(f"a {width_px} x {height_px} px figure leaves panels of {pw} x {ph} px "
                          "(at least 16 x 16 needed): make it larger")
-    return FigureGeometry(int(ncols), int(nrows), (pw, ph), title_px, legend_px, float(dpi), fs)
+    return FigureGeometry(int(ncols), int(nrows), (pw, ph), title_px, legend_px, float(dpi), fs, title_pt)
 
 
 def compose_figure(renders: Sequence[Render], geometry: FigureGeometry, *,
                    titles: Sequence[str] | None = None, units: str = "a0", legend: bool = True,
-                   scale_bar: bool = True, transparent: bool = False):
+                   scale_bar: bool = True, transparent: bool = False, triad: bool = False):
     """Place renders in a grid with titles, one phase legend and one scale bar.
 
     The renders are shown pixel for pixel (``imshow``, no resampling), so the scale bar,
@@ -127,11 +168,15 @@ def compose_figure(renders: Sequence[Render], geometry: FigureGeometry, *,
         perspective camera, whose scale changes with depth).
     transparent : bool
         Leave the figure background transparent.
+    triad : bool
+        Draw the x, y, z axis triad of the renders' camera in the legend column (all
+        renders must be seen from one direction).
 
     Returns
     -------
     matplotlib.figure.Figure
     """
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.figure import Figure
 
     from .legend import draw_phase_legend, draw_scale_bar
@@ -151,8 +196,11 @@ def compose_figure(renders: Sequence[Render], geometry: FigureGeometry, *,
         raise ValueError("the panels are drawn at different scales; one scale bar cannot serve them")
     if len(renders) > geometry.ncols * geometry.nrows:
         raise ValueError(f"{len(renders)} panels do not fit a {geometry.nrows} x {geometry.ncols} grid")
+    if triad and len({tuple(r.camera.basis()[2].round(12)) for r in renders}) > 1:
+        raise ValueError("the panels are seen from different directions; one axis triad cannot serve them")
     fw, fh = geometry.size_px
     fig = Figure(figsize=(fw / geometry.dpi, fh / geometry.dpi), dpi=geometry.dpi)
+    FigureCanvasAgg(fig)  # a renderer to measure the titles with
     if transparent:
         fig.patch.set_alpha(0.0)
     fs = geometry.fontsize_pt
@@ -164,19 +212,34 @@ def compose_figure(renders: Sequence[Render], geometry: FigureGeometry, *,
         ax.imshow(r.rgba, interpolation="none", origin="upper", extent=(0, pw, ph, 0))
         ax.set_axis_off()
         if titles is not None and geometry.title_px:
-            fig.text((left + 0.5 * pw) / fw, 1.0 - (top - 0.45 * geometry.title_px) / fh, titles[k],
-                     ha="center", va="center", fontsize=fs)
+            text = fig.text((left + 0.5 * pw) / fw, 1.0 - (top - 0.5 * geometry.title_px) / fh, titles[k],
+                            ha="center", va="center", fontsize=geometry.title_pt)
+            _fit_width(text, _TITLE_WIDTH_SHARE * pw)
     if geometry.legend_px:
         lw = geometry.legend_px
         x0 = geometry.ncols * pw
         side = 0.92 * lw
-        wheel_top = 0.5 * fh - 0.62 * side
+        bar_h = 3.0 * fs * geometry.dpi / 72.0
+        show_bar = scale_bar and renders[0].camera.projection == "orthographic"
+        triad_side = 0.7 * side if triad else 0.0
+        gap = 2.2 * fs * geometry.dpi / 72.0 if triad and legend else 0.0  # the legend's title
+        # stacked and centred: the triad, the phase legend, the scale bar
+        stack = triad_side + gap + (side if legend else 0.0) + (1.2 * bar_h if show_bar else 0.0)
+        if stack > fh:  # a low strip: the triad gives way
+            triad_side = max(0.0, triad_side - (stack - fh))
+            stack = fh
+        top = 0.5 * (fh - stack)
+        if triad_side > 0:
+            ax = fig.add_axes(((x0 + 0.5 * (lw - triad_side)) / fw, 1.0 - (top + triad_side) / fh,
+                               triad_side / fw, triad_side / fh))
+            draw_axis_triad(ax, renders[0].camera, fontsize=fs)
+            top += triad_side + gap
         if legend:
-            ax = fig.add_axes(((x0 + 0.04 * lw) / fw, 1.0 - (wheel_top + side) / fh, side / fw, side / fh))
+            ax = fig.add_axes(((x0 + 0.04 * lw) / fw, 1.0 - (top + side) / fh, side / fw, side / fh))
             draw_phase_legend(ax, renders[0].phase_map, fontsize=fs)
-        if scale_bar and renders[0].camera.projection == "orthographic":
-            bar_h = 3.0 * fs * geometry.dpi / 72.0
-            ax = fig.add_axes(((x0 + 0.04 * lw) / fw, 1.0 - (wheel_top + side + bar_h * 1.2) / fh,
+            top += side
+        if show_bar:
+            ax = fig.add_axes(((x0 + 0.04 * lw) / fw, 1.0 - (top + bar_h * 1.2) / fh,
                                side / fw, bar_h / fh))
             ax.set_xlim(0, side)
             ax.set_ylim(0, bar_h)
@@ -186,9 +249,20 @@ def compose_figure(renders: Sequence[Render], geometry: FigureGeometry, *,
     return fig
 
 
+def _fit_width(text, width_px: float) -> None:
+    """Make `text` smaller until it is at most `width_px` wide (measured by the Agg renderer)."""
+    renderer = text.figure.canvas.get_renderer()
+    for _ in range(8):  # each step lands close; a few cover the rounding of glyph widths
+        wide = text.get_window_extent(renderer).width
+        if wide <= width_px:
+            return
+        text.set_fontsize(text.get_fontsize() * width_px / wide * 0.98)
+
+
 def figure_3d(surfaces: Surface | Sequence[Surface], width_px: int = 900, height_px: int = 800, *,
               dpi: float = 100.0, title: str | None = None, units: str = "a0", legend: bool = True,
-              scale_bar: bool = True, transparent: bool = False, **render_options):
+              scale_bar: bool = True, transparent: bool = False, triad: str = "auto",
+              text_size_pt: float | None = None, **render_options):
     """One render with its title, phase legend and scale bar, as a matplotlib Figure.
 
     Parameters
@@ -201,6 +275,11 @@ def figure_3d(surfaces: Surface | Sequence[Surface], width_px: int = 900, height
         Default: the state label and the fraction F the surface encloses.
     units, legend, scale_bar, transparent
         See :func:`compose_figure`.
+    triad : {"auto", "on", "off"}
+        The x, y, z axis triad; ``auto`` draws it unless every state is spherically
+        symmetric (:func:`orbitalrender.picture.triad.wants_triad`).
+    text_size_pt : float, optional
+        Title size in points (default: 1/20 of the figure height); see :func:`fit_geometry`.
     **render_options
         Passed to :func:`render_surfaces` (camera, phase_map, cutaway, ...).
 
@@ -211,17 +290,20 @@ def figure_3d(surfaces: Surface | Sequence[Surface], width_px: int = 900, height
     surfaces = as_surfaces(surfaces)
     if title is None:
         title = surface_title(surfaces[0])
-    geometry = fit_geometry(width_px, height_px, titles=bool(title), legend=legend or scale_bar, dpi=dpi)
+    show_triad = wants_triad(triad, [s.state for s in surfaces])
+    geometry = fit_geometry(width_px, height_px, titles=bool(title),
+                            legend=legend or scale_bar or show_triad, dpi=dpi, text_size_pt=text_size_pt)
     background = None if transparent else render_options.pop("background", (1.0, 1.0, 1.0))
     render_options.pop("background", None)
     render = render_surfaces(surfaces, *geometry.panel_px, background=background, **render_options)
     fig = compose_figure([render], geometry, titles=[title] if title else None, units=units, legend=legend,
-                         scale_bar=scale_bar, transparent=transparent)
+                         scale_bar=scale_bar, transparent=transparent, triad=show_triad)
     return fig, render
 
 
 def surface_title(surface: Surface) -> str:
-    """Title text: the state label (typeset, :func:`pretty_label`) and the enclosed fraction F.
+    """Title text: the state label (typeset, :func:`pretty_label`), the enclosed fraction F,
+    and Z and the reduced mass where they are not 1 (:func:`conditions_label`).
 
     Examples
     --------
@@ -232,7 +314,10 @@ def surface_title(surface: Surface) -> str:
     >>> surface_title(s)
     '3d$_{z^{2}}$, F = 0.9'
     """
-    label = pretty_label(surface.state.label) if surface.state is not None else "user field"
-    if surface.fraction_requested is None:
-        return label
-    return f"{label}, F = {surface.fraction_requested:g}"
+    state = surface.state
+    parts = [pretty_label(state.label) if state is not None else "user field"]
+    if surface.fraction_requested is not None:
+        parts.append(f"F = {surface.fraction_requested:g}")
+    if state is not None and (extra := conditions_label(state.Z, state.reduced_mass_ratio)):
+        parts.append(extra)
+    return ", ".join(parts)

@@ -63,10 +63,14 @@ _NUMBER = r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?"
 _CONDITION = re.compile(rf"^(?:(?P<axis>[xyz])|\((?P<vec>{_NUMBER},{_NUMBER},{_NUMBER})\))"
                         rf"(?P<op>[<>])(?P<value>{_NUMBER})$")
 _HALF = math.sqrt(0.5)
-#: Named cuts, relative to the view: the half facing the eye, cut by the vertical plane through
-#: the target, and the quarter facing the eye, between two vertical planes at +-45 degrees.
+#: Named cuts, relative to the view: the half toward the eye, cut by a vertical plane through
+#: the target turned 45 degrees from face-on (so the cut is seen at an angle and the opened
+#: solid shows its depth; turned toward the key light on the left, so the cut is lit), and
+#: the quarter facing the eye, between two vertical planes at +-45 degrees.
+FRONT_TURN_DEG = 45.0
 CUTAWAY_KEYWORDS: dict[str, Cutaway] = {
-    "front": Cutaway(((1.0, 0.0, 0.0),), (0.0,), view_relative=True),
+    "front": Cutaway(((math.cos(math.radians(FRONT_TURN_DEG)), -math.sin(math.radians(FRONT_TURN_DEG)),
+                       0.0),), (0.0,), view_relative=True),
     "quadrant": Cutaway(((_HALF, _HALF, 0.0), (_HALF, -_HALF, 0.0)), (0.0, 0.0), view_relative=True),
 }
 

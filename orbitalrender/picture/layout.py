@@ -14,19 +14,33 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import replace
+from fractions import Fraction
 
 import numpy as np
 
 from ..lattice.grid import Box
 from ..lattice.sampler import default_box
 from ..state.model import State, eigenstate, real_orbital
+from ..state.units import AU_TIME_S
 from ..surface.model import Surface
 from .axis import axis_segment, has_nodal_axis
 from .camera import DEFAULT_CAMERA, Camera, as_surfaces, frame_camera
 from .compose import compose_figure, fit_geometry, surface_title
 from .scene import Render, render_surfaces
+from .triad import wants_triad
 
-__all__ = ["shared_cameras", "small_multiples", "time_strip", "shell_states", "default_columns"]
+__all__ = ["shared_cameras", "small_multiples", "time_strip", "shell_states", "default_columns",
+           "beat_period_au", "time_labels", "PERIOD_TOLERANCE", "TIME_UNITS"]
+
+#: Units in which a time strip's times are given and labelled.
+TIME_UNITS = ("au", "fs")
+#: A time is labelled as a fraction p/q of the beat period T when it lies within this share of
+#: T of one (0.1 % of a period: the density moves less than any picture can show).
+PERIOD_TOLERANCE = 1e-3
+#: Denominators q tried for those fractions: halves, thirds, quarters, sixths, eighths, twelfths.
+_PERIOD_DENOMINATORS = (1, 2, 3, 4, 6, 8, 12)
+#: Significant digits of a time label; more are used only when labels would coincide.
+_TIME_DIGITS = 3
 
 
 def default_columns(count: int) -> int:
@@ -83,7 +97,7 @@ def small_multiples(panels: Sequence[Surface | Sequence[Surface]], titles: Seque
                     ncols: int | None = None, width_px: int = 1200, height_px: int = 1000,
                     dpi: float = 100.0, units: str = "a0", legend: bool = True, scale_bar: bool = True,
                     transparent: bool = False, camera: Camera = DEFAULT_CAMERA, shared_target: bool = False,
-                    **render_options):
+                    triad: str = "auto", text_size_pt: float | None = None, **render_options):
     """A grid of renders at one scale, with titles and a shared legend.
 
     Parameters
@@ -102,6 +116,12 @@ def small_multiples(panels: Sequence[Surface | Sequence[Surface]], titles: Seque
         :func:`shared_cameras`).
     shared_target : bool
         Look at one common centre in every panel.
+    triad : {"auto", "on", "off"}
+        One x, y, z axis triad for all panels (they share the viewing direction); ``auto``
+        draws it unless every state is spherically symmetric.
+    text_size_pt : float, optional
+        Title size in points (default 1/20 of a grid cell, see
+        :func:`orbitalrender.picture.compose.fit_geometry`).
     **render_options
         Passed to :func:`render_surfaces` (phase_map, cutaway, nodal_axis, ...).
 
@@ -120,8 +140,9 @@ def small_multiples(panels: Sequence[Surface | Sequence[Surface]], titles: Seque
     if ncols < 1:
         raise ValueError(f"a layout needs at least one column, got {ncols}")
     nrows = math.ceil(len(groups) / ncols)
-    geometry = fit_geometry(width_px, height_px, ncols=ncols, nrows=nrows, legend=legend or scale_bar,
-                            dpi=dpi)
+    show_triad = wants_triad(triad, [s.state for g in groups for s in g])
+    geometry = fit_geometry(width_px, height_px, ncols=ncols, nrows=nrows,
+                            legend=legend or scale_bar or show_triad, dpi=dpi, text_size_pt=text_size_pt)
     pw, ph = geometry.panel_px
     # the nodal axis is drawn in the panels whose state has one
     want_axis = bool(render_options.pop("nodal_axis", False))
@@ -133,13 +154,14 @@ def small_multiples(panels: Sequence[Surface | Sequence[Surface]], titles: Seque
                                              **render_options)
                              for g, c, a in zip(groups, cameras, axis)]
     fig = compose_figure(renders, geometry, titles=titles, units=units, legend=legend, scale_bar=scale_bar,
-                         transparent=transparent)
+                         transparent=transparent, triad=show_triad)
     return fig, renders
 
 
 def time_strip(state: State, times_au: Sequence[float], *, fraction: float = 0.9, resolution: int = 96,
-               box: Box | None = None, time_labels: Sequence[str] | None = None,
-               width_px: int | None = None, height_px: int = 360, **options):
+               box: Box | None = None, labels: Sequence[str] | None = None,
+               width_px: int | None = None, height_px: int = 360, time_unit: str = "au",
+               **options):
     """Frames of a superposition at chosen times, in one row, at one scale and one centre.
 
     Parameters
@@ -155,10 +177,12 @@ def time_strip(state: State, times_au: Sequence[float], *, fraction: float = 0.9
         Lattice points per axis for each frame.
     box : Box, optional
         One lattice box for all frames; default :func:`default_box` of `state`.
-    time_labels : sequence of str, optional
-        Panel titles; default ``t = ... au``.
+    labels : sequence of str, optional
+        Panel titles; default :func:`time_labels` in `time_unit`.
     width_px, height_px : int
         Figure size; the default width gives square frames.
+    time_unit : {"au", "fs"}
+        The unit the times were given in, which chooses the labels (:func:`time_labels`).
     **options
         Passed to :func:`small_multiples`.
 
@@ -175,13 +199,14 @@ def time_strip(state: State, times_au: Sequence[float], *, fraction: float = 0.9
         raise ValueError(f"times must be finite, got {times}")
     box = box if box is not None else default_box(state)
     surfaces = [extract_surface(state.at_time(t), fraction, resolution, box) for t in times]
-    if time_labels is None:
-        time_labels = [f"t = {t:g} au" for t in times]
+    if labels is None:
+        labels = time_labels(state, times, time_unit)
     if width_px is None:  # square frames
-        probe = fit_geometry(10 * height_px, height_px, dpi=options.get("dpi", 100.0))
+        probe = fit_geometry(10 * height_px, height_px, dpi=options.get("dpi", 100.0),
+                             text_size_pt=options.get("text_size_pt"))
         width_px = len(times) * probe.panel_px[1] + probe.legend_px
     options.setdefault("shared_target", True)
-    return small_multiples(surfaces, list(time_labels), ncols=len(times), width_px=width_px,
+    return small_multiples(surfaces, list(labels), ncols=len(times), width_px=width_px,
                            height_px=height_px, **options)
 
 
@@ -215,3 +240,89 @@ def shell_states(n: int, basis: str = "real", Z: float = 1.0, reduced_mass_ratio
         else:  # l >= 4: no Cartesian labels, the default real(n,l,m)
             out.extend(real_orbital(n, l, m, Z, reduced_mass_ratio) for m in range(-l, l + 1))
     return out
+
+
+def beat_period_au(state: State) -> float | None:
+    """Period of |psi|^2 of `state`, atomic units of time (hbar / E_h); None when it does not move.
+
+    |psi(t)|^2 holds the beats cos((E_i - E_j) t) of every pair of energies.  The Bohr
+    energies E_n = -(mu/m_e) Z^2 / (2 n^2) differ by rational multiples of one unit, so
+    the beats share a period T = 2 pi / g, g the greatest common divisor of the energy gaps.
+
+    Examples
+    --------
+    >>> from orbitalrender.state.notation import parse_state
+    >>> round(beat_period_au(parse_state("1s + 2pz")), 6)   # 2 pi / (3/8)
+    16.755161
+    >>> beat_period_au(parse_state("2s + 2pz")) is None
+    True
+    """
+    levels = sorted({Fraction(1, t.n * t.n) for t in state.terms})
+    if len(levels) < 2:
+        return None
+    gaps = [b - a for a, b in zip(levels, levels[1:])]
+    common = math.lcm(*(g.denominator for g in gaps))
+    unit = Fraction(math.gcd(*(int(g * common) for g in gaps)), common)  # gcd of the gaps of 1/n^2
+    scale = 0.5 * state.reduced_mass_ratio * state.Z ** 2  # E_n = -scale / n^2
+    return 2.0 * math.pi / (scale * float(unit))
+
+
+def _period_fraction(t_au: float, period_au: float) -> Fraction | None:
+    """t / T as p / q (q from _PERIOD_DENOMINATORS) when within PERIOD_TOLERANCE of T of one."""
+    x = t_au / period_au
+    for q in _PERIOD_DENOMINATORS:
+        p = round(x * q)
+        if abs(x - p / q) <= PERIOD_TOLERANCE:
+            return Fraction(p, q)
+    return None
+
+
+def _fraction_text(f: Fraction) -> str:
+    if f == 0:
+        return "0"
+    sign = "−" if f < 0 else ""
+    p, q = abs(f.numerator), f.denominator
+    head = "" if p == 1 else str(p)
+    return f"{sign}{head}T" if q == 1 else f"{sign}{head}T/{q}"
+
+
+def _numbers(values: Sequence[float]) -> list[str]:
+    """Values to 3 significant digits, more only where two would read alike."""
+    for digits in range(_TIME_DIGITS, 10):
+        texts = [f"{v:.{digits}g}" for v in values]
+        if len(set(texts)) == len(set(values)):
+            return texts
+    return [f"{v!r}" for v in values]
+
+
+def time_labels(state: State, times_au: Sequence[float], unit: str = "au") -> list[str]:
+    """Titles of the frames of a time strip.
+
+    With ``unit="au"`` the times are written as fractions of the beat period T
+    (:func:`beat_period_au`) when every one lies within :data:`PERIOD_TOLERANCE` of T of
+    such a fraction (``t = T/4``), and the first title gives T; otherwise, and always with
+    ``unit="fs"``, as numbers in that unit with 3 significant digits (more only where two
+    titles would read alike).
+
+    Examples
+    --------
+    >>> from orbitalrender.state.notation import parse_state
+    >>> time_labels(parse_state("1s + 2pz"), [0.0, 4.18879, 8.37758, 12.56637])
+    ['t = 0 (T = 16.8 au)', 't = T/4', 't = T/2', 't = 3T/4']
+    >>> time_labels(parse_state("1s + 2pz"), [0.0, 5.0])
+    ['t = 0 au', 't = 5 au']
+    >>> time_labels(parse_state("1s + 2pz"), [0.0, 4.18879], "fs")
+    ['t = 0 fs', 't = 0.101 fs']
+    """
+    if unit not in TIME_UNITS:
+        raise ValueError(f"unknown time unit {unit!r}: use au or fs")
+    times = [float(t) for t in times_au]
+    period = beat_period_au(state)
+    if unit == "au" and period is not None:
+        fractions = [_period_fraction(t, period) for t in times]
+        if all(f is not None for f in fractions):
+            labels = [f"t = {_fraction_text(f)}" for f in fractions]
+            labels[0] += f" (T = {_numbers([period])[0]} au)"
+            return labels
+    values = [t * AU_TIME_S * 1e15 for t in times] if unit == "fs" else times
+    return [f"t = {v} {unit}" for v in _numbers(values)]

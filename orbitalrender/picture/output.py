@@ -15,6 +15,11 @@ PDF      document information: ``Title``, ``Creator``, ``Keywords`` (short
          summary) and ``Subject`` (the JSON)
 =======  ==================================================================
 
+Text stays text in vector output: SVG ``<text>`` elements (``svg.fonttype = 'none'``) with
+a list of font families that common viewers have, and PDF fonts embedded as TrueType
+(``pdf.fonttype = 42``, Type 42) rather than Type 3 bitmaps-as-programs, which journal
+preflight checks commonly reject (common practice in publishing).  PNG is unchanged.
+
 Output is deterministic: the same figure and metadata give the same bytes.  No
 creation date is written (PDF ``CreationDate`` and SVG ``Date`` are removed),
 the SVG id salt is fixed, and matplotlib's PNG writer stores no time stamp.
@@ -26,6 +31,7 @@ matplotlib is loaded only when a figure is saved, so the checks of output paths 
 from __future__ import annotations
 
 import json
+import logging
 import math
 import os
 import re
@@ -51,6 +57,9 @@ __all__ = [
     "DPI_RANGE",
     "check_dpi",
     "check_output_paths",
+    "TEXT_SIZE_RANGE_PT",
+    "check_text_size",
+    "SAVE_RC",
 ]
 
 #: Suffix -> matplotlib format name of the picture files we write.
@@ -62,6 +71,16 @@ METADATA_KEY = "orbitalrender"
 DPI_RANGE = (10.0, 2400.0)
 #: Fixed salt for the ids matplotlib writes into SVG files (any constant string works).
 _SVG_HASH_SALT = "orbitalrender"
+#: Settings of every save: editable text in SVG and PDF (see the module docstring).  The SVG
+#: names a list of families, so a viewer without DejaVu Sans (the font matplotlib measures
+#: text with) picks a metric-similar sans-serif of its own.
+SAVE_RC: dict[str, Any] = {
+    "svg.hashsalt": _SVG_HASH_SALT,
+    "svg.fonttype": "none",
+    "pdf.fonttype": 42,
+    "font.family": ["sans-serif"],
+    "font.sans-serif": ["DejaVu Sans", "Bitstream Vera Sans", "Verdana", "Arial", "Helvetica"],
+}
 
 
 def figure_format(path: str | os.PathLike) -> str:
@@ -176,6 +195,25 @@ def check_dpi(dpi: float) -> float:
     return float(dpi)
 
 
+#: Text sizes accepted for pictures, points at the output size: below 4 pt nothing prints
+#: legibly, above 96 pt one title line would fill a slide (our bounds).
+TEXT_SIZE_RANGE_PT = (4.0, 96.0)
+
+
+def check_text_size(size_pt: float) -> float:
+    """`size_pt` as float, or ValueError unless it lies in :data:`TEXT_SIZE_RANGE_PT`.
+
+    Examples
+    --------
+    >>> check_text_size(12)
+    12.0
+    """
+    lo, hi = TEXT_SIZE_RANGE_PT
+    if not (math.isfinite(size_pt) and lo <= size_pt <= hi):
+        raise ValueError(f"the text size must be {lo:g} to {hi:g} pt, got {size_pt:g}")
+    return float(size_pt)
+
+
 def check_output_paths(out: str | os.PathLike | None, report: str | os.PathLike | None = None) -> Path | None:
     """Before any work: the picture path has a known suffix and a writable folder, and so has the
     report's; returns `out` as a Path (None stays None)."""
@@ -224,6 +262,9 @@ def save_figure(fig, path: str | os.PathLike, metadata: Mapping[str, Any],
                 dpi: float | None = None, **savefig_kwargs: Any) -> Path:
     """Write `fig` to `path` (PNG, SVG or PDF from the suffix) with `metadata` embedded.
 
+    The one save path of every picture (command line, gallery and Python): text stays
+    text in SVG and PDF (:data:`SAVE_RC`).
+
     Parameters
     ----------
     fig : matplotlib.figure.Figure
@@ -260,9 +301,17 @@ def save_figure(fig, path: str | os.PathLike, metadata: Mapping[str, Any],
     info = _format_metadata(fmt, metadata)
     import matplotlib as mpl
 
-    with mpl.rc_context({"svg.hashsalt": _SVG_HASH_SALT}), atomic_path(path) as tmp:
-        fig.savefig(tmp, format=fmt, dpi=dpi if dpi is not None else "figure", metadata=info,
-                    **savefig_kwargs)
+    # embedding TrueType fonts in PDF goes through fontTools, which warns (on the logging
+    # system) that DejaVu's head-table dates look low: true of the font, not worth a line
+    quiet = logging.getLogger("fontTools")
+    level = quiet.level
+    quiet.setLevel(logging.ERROR)
+    try:
+        with mpl.rc_context(SAVE_RC), atomic_path(path) as tmp:
+            fig.savefig(tmp, format=fmt, dpi=dpi if dpi is not None else "figure", metadata=info,
+                        **savefig_kwargs)
+    finally:
+        quiet.setLevel(level)
     return Path(path)
 
 

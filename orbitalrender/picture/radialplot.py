@@ -12,13 +12,18 @@ F), all computed numerically there:
 * the radius holding F: a dash-dot vertical line, and a filled square on the
   cumulative curve at height F.
 
+In a figure of several panels each mark is drawn only in its own panel (nodes with
+R, the most probable radius with the density, the radius holding F with P), or, when
+that quantity is not shown, in the first panel; the values are also listed beside
+the plot ("node at r = 2.00 a0").
+
 Lengths are drawn in a0, angstrom, nm or pm; R is converted with them (unit^-3/2),
 r^2 R^2 too (unit^-1), so every curve stays normalised in the unit shown.
 """
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Collection, Sequence
 from dataclasses import dataclass
 
 import matplotlib.figure
@@ -27,11 +32,12 @@ from matplotlib.lines import Line2D
 
 from ..state.hydrogen import radial_function
 from ..state.model import State
-from ..state.notation import pretty_label
+from ..state.notation import conditions_label, pretty_label
 from ..state.properties import most_probable_radius, radial_node_radii, shell_of
 from ..state.radial import radial_cumulative, radius_holding
 from ..state.units import a0_to, unit_label
 from ..surface.level import check_fraction
+from .output import check_text_size
 
 __all__ = [
     "RADIAL_QUANTITIES",
@@ -41,9 +47,14 @@ __all__ = [
     "draw_radial",
     "radial_figure",
     "radial_metadata",
+    "RADIAL_MARKS",
+    "mark_panels",
+    "radial_values_text",
 ]
 
 RADIAL_QUANTITIES = ("R", "density", "cumulative")
+#: The marks, each with the quantity whose panel it belongs to.
+RADIAL_MARKS = {"nodes": "R", "peak": "density", "holding": "cumulative"}
 #: The plots run out to the radius holding this share of the widest state, ...
 _RANGE_FRACTION = 0.999
 #: ... times this margin.
@@ -157,7 +168,8 @@ def _axis_unit(quantity: str, units: str) -> str:
 
 
 def draw_radial(ax, states: Sequence[State], quantity: str, fraction: float = 0.9, units: str = "a0",
-                r_max_a0: float | None = None, fontsize: float = 9.0) -> list[RadialMarks]:
+                r_max_a0: float | None = None, fontsize: float = 9.0, *,
+                marks: Collection[str] = tuple(RADIAL_MARKS)) -> list[RadialMarks]:
     """Draw one radial `quantity` of every state into `ax`, with the marks.
 
     Parameters
@@ -173,6 +185,9 @@ def draw_radial(ax, states: Sequence[State], quantity: str, fraction: float = 0.
     r_max_a0 : float, optional
         End of the radial axis (default :func:`radial_range_a0`).
     fontsize : float
+        Size of the axis labels, points.
+    marks : collection of {"nodes", "peak", "holding"}
+        The marks drawn in this panel (default all; see :func:`mark_panels`).
 
     Returns
     -------
@@ -183,6 +198,9 @@ def draw_radial(ax, states: Sequence[State], quantity: str, fraction: float = 0.
         raise ValueError(f"unknown radial quantity {quantity!r}: use one of {', '.join(RADIAL_QUANTITIES)}")
     if not states:
         raise ValueError("a radial plot needs at least one state")
+    unknown = set(marks) - set(RADIAL_MARKS)
+    if unknown:
+        raise ValueError(f"unknown radial marks {sorted(unknown)}: use {', '.join(RADIAL_MARKS)}")
     k = a0_to(units)
     r_max = radial_range_a0(states) if r_max_a0 is None else float(r_max_a0)
     r = np.linspace(0.0, r_max, _POINTS)
@@ -190,25 +208,27 @@ def draw_radial(ax, states: Sequence[State], quantity: str, fraction: float = 0.
     out = []
     for i, state in enumerate(states):
         colour = _STATE_COLOURS[i % len(_STATE_COLOURS)]
-        marks = radial_marks(state, fraction)
-        out.append(marks)
+        found = radial_marks(state, fraction)
+        out.append(found)
         y = _curve(state, quantity, r) * scale
-        name = pretty_label(state.label) if state.label else f"state {i + 1}"
-        ax.plot(r * k, y, color=colour, lw=1.3, label=name, zorder=3)
-        for node in marks.node_radii_a0:
-            ax.axvline(node * k, color=colour, ls=_NODE_STYLE, lw=0.9, zorder=1)
-        ax.axvline(marks.most_probable_a0 * k, color=colour, ls=_PEAK_STYLE, lw=0.9, zorder=1)
-        ax.axvline(marks.holding_a0 * k, color=colour, ls=_HOLD_STYLE, lw=0.9, zorder=1)
-        if quantity == "R" and marks.node_radii_a0:
-            ax.plot(np.array(marks.node_radii_a0) * k, np.zeros(len(marks.node_radii_a0)), ls="none",
-                    marker="o", mfc="white", mec=colour, ms=4.5, zorder=4)
-        elif quantity == "density":
-            rm = marks.most_probable_a0
-            ax.plot([rm * k], _curve(state, "density", np.array([rm])) * scale, ls="none", marker="v",
+        ax.plot(r * k, y, color=colour, lw=1.3, label=_state_name(state, i, states), zorder=3)
+        nodes = np.array(found.node_radii_a0)
+        if "nodes" in marks:
+            for node in nodes:
+                ax.axvline(node * k, color=colour, ls=_NODE_STYLE, lw=0.9, zorder=1)
+            if len(nodes):  # open circles where the curve of this panel meets the node
+                ax.plot(nodes * k, _curve(state, quantity, nodes) * scale, ls="none", marker="o",
+                        mfc="white", mec=colour, ms=4.5, zorder=4)
+        if "peak" in marks:
+            rm = found.most_probable_a0
+            ax.axvline(rm * k, color=colour, ls=_PEAK_STYLE, lw=0.9, zorder=1)
+            ax.plot([rm * k], _curve(state, quantity, np.array([rm])) * scale, ls="none", marker="v",
                     color=colour, ms=5, zorder=4)
-        elif quantity == "cumulative":
-            ax.plot([marks.holding_a0 * k], [marks.fraction], ls="none", marker="s", color=colour, ms=4,
-                    zorder=4)
+        if "holding" in marks:
+            rh = found.holding_a0
+            ax.axvline(rh * k, color=colour, ls=_HOLD_STYLE, lw=0.9, zorder=1)
+            ax.plot([rh * k], _curve(state, quantity, np.array([rh])) * scale, ls="none", marker="s",
+                    color=colour, ms=4, zorder=4)
     if quantity == "R":
         ax.axhline(0.0, color="0.5", lw=0.6, zorder=0)
     if quantity == "cumulative":
@@ -227,19 +247,103 @@ def draw_radial(ax, states: Sequence[State], quantity: str, fraction: float = 0.
     return out
 
 
-def _mark_legend_handles(fraction: float) -> list[Line2D]:
-    return [Line2D([], [], color="0.25", ls=_NODE_STYLE, lw=0.9, marker="o", mfc="white", ms=4,
-                   label="radial node"),
-            Line2D([], [], color="0.25", ls=_PEAK_STYLE, lw=0.9, marker="v", ms=4,
-                   label="most probable $r$"),
-            Line2D([], [], color="0.25", ls=_HOLD_STYLE, lw=0.9, marker="s", ms=3.5,
-                   label=f"$r$ holding {100 * fraction:.4g} %")]
+def _state_name(state: State, index: int, states: Sequence[State]) -> str:
+    """Legend name of a state: its typeset label, with Z and mu when they differ between states."""
+    name = pretty_label(state.label) if state.label else f"state {index + 1}"
+    if len({(s.Z, s.reduced_mass_ratio) for s in states}) > 1:
+        extra = conditions_label(state.Z, state.reduced_mass_ratio)
+        name = f"{name}, {extra}" if extra else name
+    return name
+
+
+def mark_panels(quantities: Sequence[str]) -> list[tuple[str, ...]]:
+    """The marks drawn in each panel: each mark only in the panel of its own quantity
+    (:data:`RADIAL_MARKS`), or in the first panel when that quantity is not shown.
+
+    Examples
+    --------
+    >>> mark_panels(["R", "density", "cumulative"])
+    [('nodes',), ('peak',), ('holding',)]
+    >>> mark_panels(["density"])
+    [('nodes', 'peak', 'holding')]
+    """
+    quantities = list(quantities)
+    home = {mark: quantities.index(q) if q in quantities else 0 for mark, q in RADIAL_MARKS.items()}
+    return [tuple(mark for mark in RADIAL_MARKS if home[mark] == i) for i in range(len(quantities))]
+
+
+def _mark_legend_handles(fraction: float, shown: Collection[str]) -> list[Line2D]:
+    handles = {"nodes": Line2D([], [], color="0.25", ls=_NODE_STYLE, lw=0.9, marker="o", mfc="white",
+                               ms=4, label="radial node"),
+               "peak": Line2D([], [], color="0.25", ls=_PEAK_STYLE, lw=0.9, marker="v", ms=4,
+                              label="most probable $r$"),
+               "holding": Line2D([], [], color="0.25", ls=_HOLD_STYLE, lw=0.9, marker="s", ms=3.5,
+                                 label=f"$r$ holding {100 * fraction:.4g} %")}
+    return [handles[m] for m in RADIAL_MARKS if m in shown]
+
+
+def _radii(values_a0: Sequence[float], k: float, unit: str) -> str:
+    """'r = 1.90, 7.10 a0': radii in the unit shown, to 0.01 of it (finer than the plot can show)."""
+    return "r = " + ", ".join(f"{v * k:.2f}" for v in values_a0) + f" {unit}"
+
+
+def radial_values_text(marks: RadialMarks, units: str = "a0") -> str:
+    """The marked values of one state as lines of text: the nodes ("node at r = 2.00 a0",
+    "nodes at r = 1.90, 7.10 a0", "no radial node"), the most probable radius and the radius
+    holding F.
+
+    Examples
+    --------
+    >>> from orbitalrender.state.model import eigenstate
+    >>> print(radial_values_text(radial_marks(eigenstate(2, 0, 0)), "pm"))
+    node at r = 105.84 pm
+    most probable r = 277.08 pm
+    90 % within r = 482.89 pm
+    """
+    k, unit = a0_to(units), unit_label(units)
+    nodes = marks.node_radii_a0
+    if not nodes:
+        first = "no radial node"
+    else:
+        first = ("node at " if len(nodes) == 1 else "nodes at ") + _radii(nodes, k, unit)
+    return (f"{first}\nmost probable {_radii([marks.most_probable_a0], k, unit)}\n"
+            f"{100 * marks.fraction:.4g} % within {_radii([marks.holding_a0], k, unit)}")
+
+
+#: Default title size of a radial figure, points (our choice: readable in print at 6.4 in
+#: wide and on a projected slide); the other text is drawn at fixed ratios of it.
+RADIAL_TEXT_PT = 11.0
+#: Text sizes relative to the title: axis labels, legend entries, the list of values.
+_LABEL_RATIO, _LEGEND_RATIO, _VALUES_RATIO = 0.9, 0.8, 0.72
+#: Height of one legend line per point of text, inches (matplotlib's spacing, measured).
+_LINE_IN_PER_PT = 0.17 / 8.0
+#: Legend lines taken by the values of one state (four lines of smaller text and a gap).
+_VALUES_LINES = 4.1
 
 
 def radial_figure(states: Sequence[State], quantities: Sequence[str] = RADIAL_QUANTITIES,
                   fraction: float = 0.9, units: str = "a0", title: str | None = None,
-                  width_in: float = 6.4) -> tuple[matplotlib.figure.Figure, list[RadialMarks]]:
+                  width_in: float = 6.4, *, text_size_pt: float | None = None
+                  ) -> tuple[matplotlib.figure.Figure, list[RadialMarks]]:
     """A figure with one panel per quantity (shared radial axis), legends of states and marks.
+
+    Parameters
+    ----------
+    states : sequence of State
+        Each one (n, l) shell on one centre.
+    quantities : sequence of {"R", "density", "cumulative"}
+        One panel each, top to bottom.
+    fraction : float
+        F of the marked radius holding F.
+    units : {"a0", "angstrom", "nm", "pm"}
+    title : str, optional
+        Default: "Radial functions" (of the one state), with Z and the reduced mass when
+        they are not 1 (see :func:`orbitalrender.state.notation.conditions_label`).
+    width_in : float
+        Figure width, inches; the height follows from the panels and the legend.
+    text_size_pt : float, optional
+        Size of the title in points at the figure's size (default :data:`RADIAL_TEXT_PT`);
+        labels, legends and values are drawn at fixed ratios of it.
 
     Returns
     -------
@@ -259,46 +363,52 @@ def radial_figure(states: Sequence[State], quantities: Sequence[str] = RADIAL_QU
     if not quantities:
         raise ValueError("a radial plot needs at least one quantity")
     check_fraction(fraction)
+    size = check_text_size(RADIAL_TEXT_PT if text_size_pt is None else text_size_pt)
+    label_pt, legend_pt, values_pt = size * _LABEL_RATIO, size * _LEGEND_RATIO, size * _VALUES_RATIO
+    line_in = _LINE_IN_PER_PT * legend_pt
     rows = len(quantities)
-    line_in = 0.17  # height of one legend line at 8 pt, inches (with matplotlib's spacing)
-    # panels of 1.9 in; the legend column needs 8 lines plus 5.2 per state
-    height = max(0.9 + 1.9 * rows, 0.7 + line_in * (8 + 5.2 * len(states)))
+    panel_in = max(1.9, 0.19 * size)  # panels grow with large text, so the ticks keep room
+    top_in = 0.25 + 0.03 * size  # room for the title
+    # the legend column: the states' legend (2 + 1 per state), the marks' (5), 4.1 per state's values
+    legend_lines = 7 + (_VALUES_LINES + 1) * len(states)
+    height = max(0.9 + panel_in * rows, top_in + 0.3 + line_in * legend_lines)
     fig = matplotlib.figure.Figure(figsize=(width_in, height))
-    top = 1.0 - 0.55 / height
-    grid = fig.add_gridspec(rows, 1, left=0.12, right=0.74, bottom=0.5 / height, top=top, hspace=0.12)
+    top = 1.0 - top_in / height
+    grid = fig.add_gridspec(rows, 1, left=0.12, right=0.685, bottom=(0.2 + 0.028 * size) / height, top=top,
+                            hspace=0.12)
     r_max = radial_range_a0(states)
     axes = [fig.add_subplot(grid[i, 0]) for i in range(rows)]
     marks: list[RadialMarks] = []
+    shown = mark_panels(quantities)
     for i, (ax, q) in enumerate(zip(axes, quantities)):
         if i:
             ax.sharex(axes[0])
-        marks = draw_radial(ax, states, q, fraction, units, r_max)
+        marks = draw_radial(ax, states, q, fraction, units, r_max, label_pt, marks=shown[i])
         if i < rows - 1:
             ax.tick_params(labelbottom=False)
-    axes[-1].set_xlabel(f"$r$ ({unit_label(units)})", fontsize=9)
+    axes[-1].set_xlabel(f"$r$ ({unit_label(units)})", fontsize=label_pt)
     handles, labels = axes[0].get_legend_handles_labels()
-    fig.legend(handles, labels, loc="upper left", bbox_to_anchor=(0.765, top), fontsize=8, frameon=False,
-               title="state", title_fontsize=8, alignment="left")
+    left = 0.715
+    fig.legend(handles, labels, loc="upper left", bbox_to_anchor=(left, top), fontsize=legend_pt,
+               frameon=False, title="state", title_fontsize=legend_pt, alignment="left")
     y = top - line_in * (len(states) + 2) / height
-    fig.legend(handles=_mark_legend_handles(fraction), loc="upper left", bbox_to_anchor=(0.765, y),
-               fontsize=7.5, frameon=False, handlelength=2.6, title="marks", title_fontsize=8,
-               alignment="left")
+    fig.legend(handles=_mark_legend_handles(fraction, RADIAL_MARKS), loc="upper left",
+               bbox_to_anchor=(left, y), fontsize=values_pt, frameon=False, handlelength=2.6,
+               title="marks", title_fontsize=legend_pt, alignment="left")
     y -= line_in * 5 / height
-    k = a0_to(units)
-    fig.text(0.775, y, f"values ({unit_label(units)})", fontsize=8, va="top")
     for i, m in enumerate(marks):
-        y -= line_in * 1.1 / height
         colour = _STATE_COLOURS[i % len(_STATE_COLOURS)]
-        nodes = ", ".join(f"{r * k:.4g}" for r in m.node_radii_a0) or "none"
-        fig.text(0.775, y, f"{pretty_label(m.label) if m.label else f'state {i + 1}'}\n  nodes: {nodes}\n"
-                 f"  most probable: {m.most_probable_a0 * k:.4g}\n"
-                 f"  {100 * m.fraction:.4g} % within: {m.holding_a0 * k:.4g}",
-                 fontsize=7, va="top", color=colour, linespacing=1.25)
-        y -= line_in * 3.1 / height
+        values = "\n".join("  " + line for line in radial_values_text(m, units).splitlines())
+        fig.text(left + 0.01, y, f"{_state_name(states[i], i, states)}\n{values}", fontsize=values_pt,
+                 va="top", color=colour, linespacing=1.25)
+        y -= line_in * _VALUES_LINES / height
     if title is None:
         title = ("Radial functions" if len(states) > 1
                  else f"Radial functions of {pretty_label(states[0].label)}")
-    fig.suptitle(title, fontsize=10, x=0.44, y=1.0 - 0.18 / height, va="top")
+        shared = {(s.Z, s.reduced_mass_ratio) for s in states}
+        extra = conditions_label(*shared.pop()) if len(shared) == 1 else ""
+        title = f"{title}, {extra}" if extra else title
+    fig.suptitle(title, fontsize=size, x=0.41, y=1.0 - 0.18 / height, va="top")
     return fig, marks
 
 

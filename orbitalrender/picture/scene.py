@@ -42,6 +42,7 @@ from .axis import AXIS_RGB, axis_layer, axis_segment
 from .camera import DEFAULT_CAMERA, Camera, Projection, as_surfaces, frame_camera, pixel_projection
 from .cutaway import Cutaway, cap_exit, clip_values
 from .raster import Fragments, Screen, rasterize
+from .shadetable import SHADE_LEVELS, shade_colours, shade_table
 from .shading import (
     BAND_ROWS,
     LINE_SAMPLE,
@@ -51,7 +52,6 @@ from .shading import (
     band_lists,
     downsample,
     encode_srgb,
-    linear_lut,
     render_banded,
     shade_pixels,
     shade_points,
@@ -188,6 +188,16 @@ def _unit(v) -> np.ndarray:
     return v / np.linalg.norm(v, axis=-1, keepdims=True)
 
 
+def _shade_max(lighting: Lighting) -> float:
+    """Largest shade factor the lighting gives: ambient and both lights full on."""
+    return float(lighting.ambient + lighting.key + lighting.fill)
+
+
+def _shade_table(scheme: str, lighting: Lighting) -> np.ndarray:
+    """The phase colours at every shade the lighting can give (:mod:`.shadetable`)."""
+    return shade_table(scheme, _shade_max(lighting))
+
+
 def _kernel_light(lighting: Lighting, proj: Projection) -> Light:
     """`lighting`, fixed in the camera frame, turned into world axes for the kernels."""
     frame = np.stack([proj.right, proj.up, proj.toward])
@@ -197,11 +207,12 @@ def _kernel_light(lighting: Lighting, proj: Projection) -> Light:
     return Light(*(float(c) for c in (*key, *fill, *half)), ambient=float(lighting.ambient),
                  key_weight=float(lighting.key), fill_weight=float(lighting.fill),
                  specular=float(lighting.specular), shininess=float(lighting.shininess),
-                 back_gain=float(lighting.back_face))
+                 back_gain=float(lighting.back_face),
+                 levels_per_shade=(SHADE_LEVELS - 1) / _shade_max(lighting))
 
 
-#: One-entry table for caps of a user field, whose psi is not known off the mesh: mid grey.
-_GREY_LUT = srgb_to_linear(np.full((1, 3), 0.6))
+#: Colour of the caps of a user field, whose psi is not known off the mesh: mid grey (sRGB).
+_CAP_GREY = 0.6
 
 
 def _mesh(surfaces: list[Surface], rotation: complex, proj: Projection,
@@ -258,7 +269,8 @@ def _shade(frags: Fragments, mesh: ShadedMesh, proj: Projection, light: Light, r
         points = a[capped] + t[:, None] * b[capped]
         cap_normal = np.ascontiguousarray(planes[0][which[capped]])
         if cap_psi is None:  # no analytic psi: a neutral grey cap
-            colour = shade_points(cap_normal, np.ones(len(t), dtype=complex), _GREY_LUT, light)
+            grey = shade_colours(np.full((1, 3), _CAP_GREY), (SHADE_LEVELS - 1) / light.levels_per_shade)
+            colour = shade_points(cap_normal, np.ones(len(t), dtype=complex), grey, light)
         else:
             psi = np.asarray(cap_psi(*points.T), dtype=complex) * np.conj(rotation)
             colour = shade_points(cap_normal, np.ascontiguousarray(psi), mesh.lut, light)
@@ -374,7 +386,7 @@ def render_surfaces(surfaces: Surface | Sequence[Surface], width_px: int = 800, 
             path = render_path(cutaway=cutaway is not None, nodal_axis=nodal_axis,
                                translucent_outer=None)
 
-    lut = linear_lut(phase_map)
+    lut = _shade_table(phase_map, lighting)
     light = _kernel_light(lighting, proj)
 
     def layer(group: list[Surface]) -> tuple[np.ndarray, np.ndarray]:

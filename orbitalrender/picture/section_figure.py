@@ -26,15 +26,16 @@ from matplotlib.collections import LineCollection
 from matplotlib.lines import Line2D
 
 from ..colormap import PHASE_SCHEMES, phase_to_rgb
-from ..state.notation import pretty_label
+from ..state.notation import conditions_label, pretty_label
 from ..state.phase import sign_rotation
 from ..state.units import a0_to, unit_label
 from .density import density_weight, shade
 from .legend import draw_phase_legend
 from .nodal import SectionLines
+from .output import check_text_size
 from .section import Section
 
-__all__ = ["draw_section", "section_figure", "section_metadata"]
+__all__ = ["draw_section", "section_figure", "section_metadata", "section_title", "SECTION_TEXT_PT"]
 
 #: Dash pattern of nodal lines (offset, (on, off) in points).
 _NODE_DASH = (0, (4.0, 2.0))
@@ -141,16 +142,50 @@ def _vector_text(values: Sequence[float]) -> str:
     return "(" + ", ".join(f"{c:.3g}" for c in values) + ")"
 
 
+#: Default title size of a section figure, points: about 1/20 of the height of the picture
+#: at 6.4 in wide (our rule for slides, as for 3D panels).
+SECTION_TEXT_PT = 12.0
+#: Text sizes relative to the title: axis labels, line legend, small print (scale, vectors).
+_LABEL_RATIO, _LEGEND_RATIO, _SMALL_RATIO = 0.85, 0.75, 0.65
+
+
+def section_title(section: Section, label: str | None = None, units: str = "a0") -> str:
+    """Default title: the label typeset as in 3D titles (default the state's label, or "user
+    field"), the time if it is not 0, Z and the reduced mass where not 1, and the plane.
+
+    Examples
+    --------
+    >>> from orbitalrender.picture.plane import plane
+    >>> from orbitalrender.picture.section import cross_section
+    >>> from orbitalrender.state.model import real_orbital
+    >>> s = cross_section(real_orbital(3, 2, 0, Z=2.0, label="3dz2"), plane("xz"), half_width_a0=8.0,
+    ...                   pixels=16, fraction=None)
+    >>> section_title(s)
+    '3d$_{z^{2}}$, Z = 2: xz plane, y = 0 $a_0$'
+    """
+    state = section.state
+    if label is None:
+        label = state.label if state is not None and state.label else "user field"
+    text = pretty_label(label)
+    if state is not None and state.time_au != 0.0:
+        text += f" at t = {state.time_au:.4g} au"
+    if state is not None and (extra := conditions_label(state.Z, state.reduced_mass_ratio)):
+        text += f", {extra}"
+    return f"{text}: {section.plane.describe(units=units)}"
+
+
 def section_figure(section: Section, lines: SectionLines, *, scheme: str = "uniform",
                    scale: str = "linear", decades: float = 3.0, units: str = "a0",
                    title: str | None = None, width_in: float = 6.4,
-                   label: str | None = None) -> matplotlib.figure.Figure:
+                   label: str | None = None,
+                   text_size_pt: float | None = None) -> matplotlib.figure.Figure:
     """A complete figure of `section`: the picture, with phase legend, opacity scale and a
     legend of the lines to its right.
 
-    Parameters are those of :func:`draw_section`; `title` defaults to `label` (default
-    the state label, or "user field"), the time if it is not 0, and the plane;
-    `width_in` is the figure width in inches (height 0.75 of it).
+    Parameters are those of :func:`draw_section`; `title` defaults to
+    :func:`section_title` of `label`; `width_in` is the figure width in inches (height
+    0.75 of it); `text_size_pt` is the title size in points (default
+    :data:`SECTION_TEXT_PT`), the other text following at fixed ratios.
 
     Examples
     --------
@@ -164,30 +199,29 @@ def section_figure(section: Section, lines: SectionLines, *, scheme: str = "unif
     >>> fig.axes[0].get_xlabel()
     '$x$ ($a_0$)'
     """
+    size = check_text_size(SECTION_TEXT_PT if text_size_pt is None else text_size_pt)
+    small = _SMALL_RATIO * size
     fig = matplotlib.figure.Figure(figsize=(width_in, 0.75 * width_in))
+    top = 1.0 - (0.12 + 0.034 * size) / (0.75 * width_in)  # room for the title
+    bottom = (0.1 + 0.04 * size) / (0.75 * width_in)     # and for the axis label
     grid = fig.add_gridspec(3, 2, width_ratios=(4.0, 1.25), height_ratios=(1.1, 1.0, 0.8),
-                            left=0.1, right=0.95, bottom=0.1, top=0.88, wspace=0.12, hspace=0.3)
+                            left=0.1 + 0.004 * size, right=0.95, bottom=bottom, top=top, wspace=0.12,
+                            hspace=0.3)
     ax = fig.add_subplot(grid[:, 0])
     proxies = draw_section(ax, section, lines, scheme=scheme, scale=scale, decades=decades,
-                           units=units)
-    state = section.state
-    if label is None:
-        label = pretty_label(state.label) if state is not None and state.label else "user field"
-    if state is not None and state.time_au != 0.0:
-        label += f" at t = {state.time_au:.4g} au"
-    if title is None:
-        title = f"{label}: {section.plane.describe(units=units)}"
-    ax.set_title(title, fontsize=10)
-    draw_phase_legend(fig.add_subplot(grid[0, 1]), scheme, fontsize=8)
+                           units=units, fontsize=_LABEL_RATIO * size)
+    ax.set_title(section_title(section, label, units) if title is None else title, fontsize=size)
+    draw_phase_legend(fig.add_subplot(grid[0, 1]), scheme, fontsize=_LEGEND_RATIO * size)
     bar_slot = grid[1, 1].subgridspec(1, 3, width_ratios=(1.0, 0.35, 1.0))
-    _draw_weight_scale(fig.add_subplot(bar_slot[0, 1]), scale, decades, fontsize=7)
+    _draw_weight_scale(fig.add_subplot(bar_slot[0, 1]), scale, decades, fontsize=small)
     lax = fig.add_subplot(grid[2, 1])
     lax.set_axis_off()
     if proxies:
-        lax.legend(handles=proxies, loc="upper center", fontsize=7, frameon=False, handlelength=2.2)
+        lax.legend(handles=proxies, loc="upper center", fontsize=_LEGEND_RATIO * size, frameon=False,
+                   handlelength=2.2)
     if not section.plane.name:
         lax.text(0.5, 0.0, f"u = {_vector_text(section.plane.u)}\nv = {_vector_text(section.plane.v)}",
-                 transform=lax.transAxes, fontsize=7, color="0.3", ha="center", va="bottom")
+                 transform=lax.transAxes, fontsize=small, color="0.3", ha="center", va="bottom")
     return fig
 
 

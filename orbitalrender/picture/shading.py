@@ -4,12 +4,13 @@ The kernels work on the rasterizer's buffers (:mod:`orbitalrender.picture.raster
 
 * **Normals** are interpolated per sample from the vertex normals (Phong
   interpolation) and lit with ambient + two diffuse lights + a modest
-  Blinn-Phong highlight [1]_ [2]_.  The lighting multiplies the colour in linear
-  light, so it changes brightness, not hue.
+  Blinn-Phong highlight [1]_ [2]_.  Light and shadow change only the CIELAB
+  lightness of the phase colour, keeping its hue and chroma: the colour is read
+  from a table over phase and shade (:mod:`orbitalrender.picture.shadetable`),
+  interpolated in shade; the highlight adds white.
 * **Hue** is the phase of psi.  The unit phasors psi/|psi| of the three
   vertices are interpolated (never the angles, which would jump where the phase
-  wraps from pi to -pi) and the angle of the result is looked up in a
-  linear-light table of :func:`orbitalrender.colormap.phase_to_rgb`.
+  wraps from pi to -pi) and the angle of the result indexes that table.
 * **Antialiasing**: samples are box-filtered to output pixels in linear light
   (:func:`downsample`), or shaded once per triangle and pixel at the mean
   weights of its samples (:func:`shade_resolve`, centroid sampling).
@@ -32,10 +33,10 @@ from typing import NamedTuple
 import numba
 import numpy as np
 
-from ..colormap import linear_to_srgb, phase_to_rgb, srgb_to_linear
+from ..colormap import linear_to_srgb
 from .raster import Buffers, scan_triangle
 
-__all__ = ["Light", "ShadedMesh", "Bands", "LINE_SAMPLE", "BAND_ROWS", "linear_lut",
+__all__ = ["Light", "ShadedMesh", "Bands", "LINE_SAMPLE", "BAND_ROWS",
            "srgb_lut", "shade_pixels", "shade_resolve", "render_banded", "band_lists", "shade_points",
            "downsample", "encode_srgb"]
 
@@ -59,6 +60,7 @@ class Light(NamedTuple):
     specular: float
     shininess: float
     back_gain: float                   #: brightness of a back face relative to a front face
+    levels_per_shade: float            #: shade-table levels per unit of shade (:mod:`.shadetable`)
 
 
 class ShadedMesh(NamedTuple):
@@ -68,7 +70,8 @@ class ShadedMesh(NamedTuple):
     normals: np.ndarray  #: (V, 3) float64 unit vertex normals
     phasors: np.ndarray  #: (V,) complex128 unit psi/|psi|, the global phase already removed
     front: np.ndarray    #: (F,) bool, True where the triangle faces the eye
-    lut: np.ndarray      #: (K, 3) float64 linear-light phase table (:func:`linear_lut`)
+    lut: np.ndarray      #: (P, L, 3) float32 linear-light colours over phase and shade
+    #: (:func:`orbitalrender.picture.shadetable.shade_table`)
 
 
 class Bands(NamedTuple):
@@ -77,17 +80,6 @@ class Bands(NamedTuple):
     start: np.ndarray
     faces: np.ndarray
 
-
-#: Entries of the linear-light phase table used per pixel (step 0.09 degree, far below a
-#: visible difference); it is tabulated from :func:`phase_to_rgb`, not a map of its own.
-_SHADE_LUT_SIZE = 4096
-
-
-@cache
-def linear_lut(scheme: str) -> np.ndarray:
-    """Linear-light colours (_SHADE_LUT_SIZE, 3) of phase map `scheme`; entry k is phase 2 pi k / size."""
-    phases = 2 * np.pi * np.arange(_SHADE_LUT_SIZE) / _SHADE_LUT_SIZE
-    return np.ascontiguousarray(srgb_to_linear(phase_to_rgb(phases, scheme)))
 
 
 @numba.njit(cache=True, nogil=True)
@@ -105,6 +97,18 @@ def _light(nx, ny, nz, light):  # pragma: no cover - compiled
 def _lut_index(re, im, size):  # pragma: no cover - compiled
     k = int(np.rint(np.arctan2(im, re) * (size / (2.0 * np.pi))))
     return k % size
+
+
+@numba.njit(cache=True, nogil=True)
+def _shaded(table, c, shade, spec, light):  # pragma: no cover - compiled
+    """Linear-light (r, g, b) of phase entry c at `shade`, interpolated between the levels of
+    `table` (light.levels_per_shade of them per unit of shade), plus the white highlight `spec`."""
+    x = min(max(shade * light.levels_per_shade, 0.0), table.shape[1] - 1.0)
+    k = min(int(x), table.shape[1] - 2)
+    f = x - k
+    return ((1.0 - f) * table[c, k, 0] + f * table[c, k + 1, 0] + spec,
+            (1.0 - f) * table[c, k, 1] + f * table[c, k + 1, 1] + spec,
+            (1.0 - f) * table[c, k, 2] + f * table[c, k + 1, 2] + spec)
 
 
 @numba.njit(cache=True, nogil=True)
@@ -132,8 +136,7 @@ def _shade_sample(t, b0, b1, b2, mesh, light):  # pragma: no cover - compiled
         gain = light.back_gain
     diffuse, spec = _light(nx, ny, nz, light)
     c = _lut_index(pr, pi, lut.shape[0])
-    return (gain * (lut[c, 0] * diffuse + spec), gain * (lut[c, 1] * diffuse + spec),
-            gain * (lut[c, 2] * diffuse + spec))
+    return _shaded(lut, c, gain * diffuse, gain * spec, light)
 
 
 @numba.njit(cache=True, nogil=True)
@@ -276,8 +279,7 @@ def shade_points(normals, psi, lut, light):  # pragma: no cover - compiled
     for p in range(normals.shape[0]):
         diffuse, spec = _light(normals[p, 0], normals[p, 1], normals[p, 2], light)
         c = _lut_index(psi[p].real, psi[p].imag, size)
-        for ch in range(3):
-            out[p, ch] = lut[c, ch] * diffuse + spec
+        out[p, 0], out[p, 1], out[p, 2] = _shaded(lut, c, diffuse, spec, light)
     return out
 
 

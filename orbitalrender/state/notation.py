@@ -26,7 +26,7 @@ from dataclasses import dataclass
 
 from .model import State, eigenstate, real_orbital, superpose
 
-__all__ = ["REAL_LABELS", "parse_state", "pretty_label", "StateSyntaxError"]
+__all__ = ["REAL_LABELS", "parse_state", "pretty_label", "conditions_label", "StateSyntaxError"]
 
 _SHELL_L = {"s": 0, "p": 1, "d": 2, "f": 3}
 
@@ -274,3 +274,33 @@ def pretty_label(label: str) -> str:
     if mt:
         return rf"$|{mt[1]}, {mt[2]}, {mt[3]}\rangle$"
     return label
+
+
+#: Two reduced masses closer than this (relative) are taken for the same nucleus preset.
+_SAME_MASS = 1e-12
+
+
+def conditions_label(Z: float = 1.0, reduced_mass_ratio: float = 1.0) -> str:
+    """What a title must add when the atom is not the default one (Z = 1, infinite nuclear
+    mass): ``Z = 2`` and the reduced mass mu / m_e (with the preset's name when it is one),
+    as typeset text; the empty string for the defaults.
+
+    Examples
+    --------
+    >>> conditions_label(1.0, 1.0)
+    ''
+    >>> conditions_label(2.0, 1.0)
+    'Z = 2'
+    >>> conditions_label(1.0, 0.5)
+    '$\\\\mu$ = 0.5 $m_e$ (positronium)'
+    """
+    from .units import NUCLEUS_PRESETS
+    from .units import reduced_mass_ratio as ratio_of
+
+    parts = [] if Z == 1 else [f"Z = {Z:g}"]
+    if reduced_mass_ratio != 1:
+        names = [name for name, masses in NUCLEUS_PRESETS.items()
+                 if abs(ratio_of(*masses) - reduced_mass_ratio) <= _SAME_MASS * reduced_mass_ratio]
+        named = f" ({names[0]})" if names else ""
+        parts.append(rf"$\mu$ = {reduced_mass_ratio:.6g} $m_e${named}")
+    return ", ".join(parts)
