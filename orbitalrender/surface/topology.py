@@ -16,9 +16,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass, replace
 
+import numba
 import numpy as np
-from scipy.sparse import csr_matrix
-from scipy.sparse.csgraph import connected_components
 
 from .model import Surface
 
@@ -88,68 +87,125 @@ def component_labels(surface: Surface) -> tuple[int, np.ndarray]:
     Parts are numbered in the order their first vertex appears; a vertex used by no face
     gets -1.
     """
-    nv = len(surface.vertices_a0)
-    lo, hi, _, _ = _edges(surface.faces, nv)
-    return _vertex_parts(lo, hi, surface.faces, nv)
+    labels, count, *_ = _figures(*_arrays(surface.vertices_a0, surface.faces))
+    return int(count), labels
 
 
-def _vertex_parts(lo: np.ndarray, hi: np.ndarray, faces: np.ndarray, nv: int) -> tuple[int, np.ndarray]:
-    """Parts of the graph of the edges (lo, hi), lo ascending: the count, and the part of
-    each vertex numbered by first appearance (-1 for a vertex no face uses)."""
-    # lo is sorted (the edges come from sorted keys), so the rows of a CSR graph are
-    # runs of it; "weak" components of the directed edges are the undirected ones
-    indptr = np.zeros(nv + 1, dtype=np.int64)
-    np.cumsum(np.bincount(lo, minlength=nv), out=indptr[1:])
-    graph = csr_matrix((np.ones(len(lo), dtype=np.int8), hi, indptr), shape=(nv, nv))
-    _, labels = connected_components(graph, directed=True, connection="weak")
-    # scipy numbers the components in the order of their lowest vertex (it starts a
-    # search from each unlabelled vertex in turn); dropping the labels of vertices no face
-    # uses keeps that order, which is the order of first appearance
-    used = np.zeros(nv, dtype=bool)
-    used[faces.ravel()] = True
-    keep = np.zeros(int(labels.max()) + 1 if nv else 0, dtype=bool)
-    keep[labels[used]] = True
-    remap = np.where(keep, np.cumsum(keep) - 1, -1)
-    out = remap[labels]
-    out[~used] = -1
-    return int(keep.sum()), out
+def _arrays(vertices: np.ndarray, faces: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The arrays in the one layout the compiled kernels take (float64 and int64, C order)."""
+    return (np.ascontiguousarray(vertices, dtype=np.float64).reshape(-1, 3),
+            np.ascontiguousarray(faces, dtype=np.int64).reshape(-1, 3))
 
 
-def _edges(faces: np.ndarray, nv: int) -> tuple[np.ndarray, np.ndarray, np.ndarray, bool]:
-    """Unique undirected edges (lower, higher vertex), how many faces share each, and whether
-    the winding is consistent (no directed edge walked twice).
+@numba.njit(cache=True, nogil=True)
+def _find(parent, a):
+    """Root of a in the union-find forest, halving the path on the way."""
+    while parent[a] != a:
+        parent[a] = parent[parent[a]]
+        a = parent[a]
+    return a
 
-    Each side of a face is one int64 key 2 (lower nv + higher) + (1 if it runs from the
-    higher vertex to the lower); one sort of the 3F keys groups the copies of an edge, so
-    the cost is that of sorting integers instead of rows, and two equal neighbours in the
-    sorted keys are the same edge walked the same way.
+
+@numba.njit(cache=True, nogil=True)
+def _figures(verts, faces):
+    """One pass over the faces and one over their sides.
+
+    Returns the part of every vertex (numbered by first appearance, -1 if unused), the
+    number of parts, per part the vertex, edge, face and open-edge counts and the signed
+    volume, the total area, and whether no side is walked twice the same way.
     """
-    ahead = np.roll(faces, -1, axis=1)
-    key = ((np.minimum(faces, ahead) * nv + np.maximum(faces, ahead)) * 2 + (faces > ahead)).ravel()
-    key.sort()
-    same = key[1:] == key[:-1]
-    consistent = not bool(same.any())
-    key >>= 1
-    start = np.flatnonzero(np.concatenate(([True], key[1:] != key[:-1])))
-    shared = np.diff(np.append(start, len(key)))
-    unique = key[start]
-    return unique // nv, unique % nv, shared, consistent
+    nv, nf = verts.shape[0], faces.shape[0]
+    parent = np.arange(nv)
+    used = np.zeros(nv, dtype=np.bool_)
+    for f in range(nf):
+        a, b, c = faces[f, 0], faces[f, 1], faces[f, 2]
+        used[a] = used[b] = used[c] = True
+        for u, v in ((a, b), (b, c)):
+            ru, rv = _find(parent, u), _find(parent, v)
+            if ru != rv:
+                if ru < rv:
+                    parent[rv] = ru
+                else:
+                    parent[ru] = rv
+    labels = np.full(nv, -1, dtype=np.int64)
+    root_label = np.full(nv, -1, dtype=np.int64)
+    count = 0
+    for v in range(nv):
+        if used[v]:
+            r = _find(parent, v)
+            if root_label[r] < 0:
+                root_label[r] = count
+                count += 1
+            labels[v] = root_label[r]
+    n_vertices = np.zeros(count, dtype=np.int64)
+    for v in range(nv):
+        if labels[v] >= 0:
+            n_vertices[labels[v]] += 1
+    # sides bucketed by their lower vertex (a counting sort): each bucket holds the few
+    # sides around one vertex, so finding the copies of an edge is a short scan
+    start = np.zeros(nv + 1, dtype=np.int64)
+    for f in range(nf):
+        for k in range(3):
+            a, b = faces[f, k], faces[f, (k + 1) % 3]
+            start[min(a, b) + 1] += 1
+    for v in range(nv):
+        start[v + 1] += start[v]
+    fill = start[:-1].copy()
+    other = np.empty(3 * nf, dtype=np.int64)
+    upward = np.empty(3 * nf, dtype=np.bool_)
+    for f in range(nf):
+        for k in range(3):
+            a, b = faces[f, k], faces[f, (k + 1) % 3]
+            lo = min(a, b)
+            other[fill[lo]] = max(a, b)
+            upward[fill[lo]] = a < b
+            fill[lo] += 1
+    n_edges = np.zeros(count, dtype=np.int64)
+    n_open = np.zeros(count, dtype=np.int64)
+    consistent = True
+    for v in range(nv):
+        for i in range(start[v], start[v + 1]):
+            first, shared, ups = True, 0, 0
+            for j in range(start[v], start[v + 1]):
+                if other[j] == other[i]:
+                    if j < i:
+                        first = False
+                        break
+                    shared += 1
+                    ups += 1 if upward[j] else 0
+            if first:
+                n_edges[labels[v]] += 1
+                if shared != 2:
+                    n_open[labels[v]] += 1
+                if ups > 1 or shared - ups > 1:
+                    consistent = False
+    n_faces = np.zeros(count, dtype=np.int64)
+    volumes = np.zeros(count)
+    area = 0.0
+    for f in range(nf):
+        a, b, c = faces[f, 0], faces[f, 1], faces[f, 2]
+        ux, uy, uz = verts[b, 0] - verts[a, 0], verts[b, 1] - verts[a, 1], verts[b, 2] - verts[a, 2]
+        wx, wy, wz = verts[c, 0] - verts[a, 0], verts[c, 1] - verts[a, 1], verts[c, 2] - verts[a, 2]
+        nx, ny, nz = uy * wz - uz * wy, uz * wx - ux * wz, ux * wy - uy * wx
+        part = labels[a]
+        n_faces[part] += 1
+        # (b - a) x (c - a) has twice the area as length, and a . it = a . (b x c) is
+        # six times the signed volume of the tetrahedron (origin, a, b, c)
+        volumes[part] += (verts[a, 0] * nx + verts[a, 1] * ny + verts[a, 2] * nz) / 6.0
+        area += 0.5 * np.sqrt(nx * nx + ny * ny + nz * nz)
+    return labels, count, n_vertices, n_edges, n_faces, n_open, volumes, area, consistent
 
 
-def _volumes_and_areas(verts: np.ndarray, faces: np.ndarray) -> tuple[np.ndarray, float]:
-    """Signed volume of each face's tetrahedron with the origin, and the total area.
-
-    With u = b - a and w = c - a, |u x w| is twice the area and a . (u x w) = a . (b x c)
-    six times the signed volume.
-    """
-    a = verts[faces[:, 0]].T
-    u = verts[faces[:, 1]].T - a
-    w = verts[faces[:, 2]].T - a
-    n0 = u[1] * w[2] - u[2] * w[1]
-    n1 = u[2] * w[0] - u[0] * w[2]
-    n2 = u[0] * w[1] - u[1] * w[0]
-    signed = (a[0] * n0 + a[1] * n1 + a[2] * n2) / 6.0
-    return signed, 0.5 * float(np.sqrt(n0 * n0 + n1 * n1 + n2 * n2).sum())
+@numba.njit(cache=True, nogil=True)
+def _volume_spread(verts, faces):
+    volume, spread = 0.0, 0.0
+    for f in range(faces.shape[0]):
+        a, b, c = verts[faces[f, 0]], verts[faces[f, 1]], verts[faces[f, 2]]
+        six = (a[0] * (b[1] * c[2] - b[2] * c[1]) + a[1] * (b[2] * c[0] - b[0] * c[2])
+               + a[2] * (b[0] * c[1] - b[1] * c[0]))
+        volume += six
+        spread += abs(six)
+    return volume / 6.0, spread / 6.0
 
 
 def volume_spread(vertices: np.ndarray, faces: np.ndarray) -> tuple[float, float]:
@@ -164,8 +220,8 @@ def volume_spread(vertices: np.ndarray, faces: np.ndarray) -> tuple[float, float
     >>> [round(x, 6) for x in volume_spread(v, f)]
     [0.166667, 0.166667]
     """
-    signed, _ = _volumes_and_areas(np.asarray(vertices, dtype=np.float64), np.asarray(faces))
-    return float(signed.sum()), float(np.abs(signed).sum())
+    volume, spread = _volume_spread(*_arrays(vertices, faces))
+    return float(volume), float(spread)
 
 
 def topology(surface: Surface) -> Topology:
@@ -189,9 +245,9 @@ def topology(surface: Surface) -> Topology:
 def mesh_topology(vertices: np.ndarray, faces: np.ndarray) -> Topology:
     """:func:`topology` of any triangle mesh given as vertex and face arrays.
 
-    Volumes and area are in the unit of `vertices` cubed and squared.  The cost is one
-    sort of the 3F edge keys and one pass over the edges for the parts (linear apart
-    from that integer sort).
+    Volumes and area are in the unit of `vertices` cubed and squared.  The cost is linear
+    in the number of faces: parts from a union-find over the face sides, edges from the
+    sides bucketed by their lower vertex, volumes and area in the same pass over the faces.
 
     Examples
     --------
@@ -202,27 +258,17 @@ def mesh_topology(vertices: np.ndarray, faces: np.ndarray) -> Topology:
     >>> t.euler_characteristics, round(t.volume_a0_3, 6), t.face_counts, t.oriented
     ((2,), 1.333333, (4,), True)
     """
-    faces = np.asarray(faces, dtype=np.int64)
-    verts = np.asarray(vertices, dtype=np.float64)
-    nv = len(verts)
-    lo, hi, shared, consistent = _edges(faces, nv)
-    count, labels = _vertex_parts(lo, hi, faces, nv)
-    face_label = labels[faces[:, 0]]
-    signed, area = _volumes_and_areas(verts, faces)
-    edge_label = labels[lo]
-    n_vertices = np.bincount(labels[labels >= 0], minlength=count)
-    n_edges = np.bincount(edge_label, minlength=count)
-    n_faces = np.bincount(face_label, minlength=count)
-    closed_part = np.bincount(edge_label[shared != 2], minlength=count) == 0
+    _, count, n_vertices, n_edges, n_faces, n_open, volumes, area, consistent = _figures(
+        *_arrays(vertices, faces))
     chi = n_vertices - n_edges + n_faces
-    volumes = np.bincount(face_label, weights=signed, minlength=count)
+    closed_part = n_open == 0
     genus = tuple(int((2 - x) // 2) if ok else None for x, ok in zip(chi, closed_part))
-    return Topology(components=count, euler_characteristics=tuple(int(x) for x in chi), genus=genus,
+    return Topology(components=int(count), euler_characteristics=tuple(int(x) for x in chi), genus=genus,
                     volumes_a0_3=tuple(float(v) for v in volumes), volume_a0_3=float(volumes.sum()),
-                    area_a0_2=area, closed=bool(closed_part.all()),
+                    area_a0_2=float(area), closed=bool(closed_part.all()),
                     regions=int(np.count_nonzero(volumes > 0)),
                     face_counts=tuple(int(k) for k in n_faces),
-                    oriented=consistent)
+                    oriented=bool(consistent))
 
 
 def split_components(surface: Surface) -> list[Surface]:
