@@ -21,8 +21,8 @@ Also printed, in this process: the report's share of the surface step (``surface
 against ``extract_surface`` at N = 256), the time and enclosed-fraction error of the
 two-centre level (against the dense 320 x 96 x 192 Becke grid the rule replaced), and
 with ``--cold`` a ``figure`` right after a fresh install (a new virtual environment in
-/tmp whose own site-packages hold only orbitalrender, installed with pip from this
-source tree, the other dependencies taken from this interpreter's environment) against
+/tmp where ``pip install --no-deps`` installs orbitalrender from this source tree; the
+other dependencies come from this interpreter's environment through a .pth file) against
 the second, warm run; the environment is deleted afterwards.
 
 Run (from the repository root):
@@ -183,19 +183,19 @@ def two_centre(label: str, fraction: float) -> None:
 
 def cold_figure(folder: Path) -> None:
     venv = folder / "fresh"
-    subprocess.run([sys.executable, "-m", "venv", "--without-pip", str(venv)], check=True)
-    python = venv / "bin" / "python"
-    site = subprocess.run([str(python), "-c", "import sysconfig; print(sysconfig.get_paths()['purelib'])"],
-                          check=True, capture_output=True, text=True).stdout.strip()
-    deps = subprocess.run([sys.executable, "-c", "import sysconfig; print(sysconfig.get_paths()['purelib'])"],
-                          check=True, capture_output=True, text=True).stdout.strip()
-    subprocess.run([sys.executable, "-m", "pip", "install", "-q", "--no-deps", "--no-build-isolation",
-                    "--target", site, str(ROOT)], check=True, cwd=folder)
-    (Path(site) / "zz_shared_dependencies.pth").write_text(deps + "\n")
+    subprocess.run([sys.executable, "-m", "venv", str(venv)], check=True)
+    python = str(venv / "bin" / "python")
+
+    def purelib(exe: str) -> str:
+        return subprocess.run([exe, "-c", "import sysconfig; print(sysconfig.get_paths()['purelib'])"],
+                              check=True, capture_output=True, text=True).stdout.strip()
+
+    subprocess.run([python, "-m", "pip", "install", "-q", "--no-deps", str(ROOT)], check=True, cwd=folder)
+    (Path(purelib(python)) / "zz_shared_dependencies.pth").write_text(purelib(sys.executable) + "\n")
     env = dict(os.environ, MPLBACKEND="Agg")
     env.pop("PYTHONPATH", None)
     env.pop("NUMBA_CACHE_DIR", None)
-    argv = [str(python), "-m", "orbitalrender", "figure", "3,2,0", "--fraction", "0.9", "--resolution", "200",
+    argv = [python, "-m", "orbitalrender", "figure", "3,2,0", "--fraction", "0.9", "--resolution", "200",
             "--out", str(folder / "cold.png")]
     cold = _timed(argv, folder, env)
     warm = statistics.median(_timed(argv, folder, env) for _ in range(3))
