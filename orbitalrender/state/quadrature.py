@@ -15,7 +15,6 @@ from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.special import roots_legendre
 
 __all__ = ["SpaceGrid", "space_grid", "integrate"]
 
@@ -43,6 +42,8 @@ def _sphere_grid(radial_scale_a0: float, n_radial: int, n_polar: int, n_azimuth:
     """Product grid around the origin: mapped Gauss-Legendre in r, Gauss-Legendre in cos(theta),
     trapezoid (exact for trigonometric polynomials) in phi; theta measured from `axis`
     (default z)."""
+    from scipy.special import roots_legendre  # fast for large counts; scipy loads only when used
+
     x, wx = roots_legendre(n_radial)
     t = 0.5 * (x + 1.0)  # (0, 1)
     # r = s t^2 / (1 - t)^2 clusters points at the nucleus, where the cusps are,
