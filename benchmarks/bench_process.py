@@ -7,7 +7,8 @@ exact vertex psi, report, writing).
 
 Baselines, the scripts a practitioner writes by hand (``_MESH_SCRIPT`` and
 ``_FIGURE_SCRIPT`` below), also fresh processes: psi on the whole box with scipy
-(meshgrid, ``eval_genlaguerre``, ``sph_harm_y``), |psi|^2, ``np.sort`` of every density
+(``bench_sampling.baseline``: meshgrid, ``eval_genlaguerre``, ``sph_harm_y``), |psi|^2,
+``np.sort`` of every density
 and a cumulative sum times the voxel volume for the level, skimage marching cubes, and
 trimesh to write the PLY; the figure script instead draws the mesh flat-shaded with
 matplotlib's ``Poly3DCollection`` and saves a PNG.  They get the same box as ours (the
@@ -44,24 +45,17 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parents[1]
 
 _COMMON = r'''
-import math, sys
+import sys
 import numpy as np
-from scipy.special import eval_genlaguerre, sph_harm_y
 from skimage.measure import marching_cubes
+
+sys.path.insert(0, "benchmarks")
+from bench_sampling import baseline  # psi on the whole box with scipy, the usual way
 
 n, l, m = (int(v) for v in sys.argv[1].split(","))
 fraction, N, half, out = float(sys.argv[2]), int(sys.argv[3]), float(sys.argv[4]), sys.argv[5]
-ax = np.linspace(-half, half, N)
-h = ax[1] - ax[0]
-x, y, z = np.meshgrid(ax, ax, ax, indexing="ij")
-r = np.sqrt(x**2 + y**2 + z**2)
-theta = np.arccos(np.divide(z, r, out=np.ones_like(r), where=r > 0))
-phi = np.arctan2(y, x)
-rho = 2.0 * r / n
-norm = math.sqrt((2.0 / n) ** 3 * math.factorial(n - l - 1) / (2 * n * math.factorial(n + l)))
-radial = norm * np.exp(-rho / 2) * rho**l * eval_genlaguerre(n - l - 1, 2 * l + 1, rho)
-psi = radial * sph_harm_y(l, m, theta, phi)
-density = np.abs(psi) ** 2
+h = 2.0 * half / (N - 1)
+density = np.abs(baseline(n, l, m, N, half)) ** 2
 ordered = np.sort(density, axis=None)[::-1]
 level = ordered[np.searchsorted(np.cumsum(ordered) * h**3, fraction)]
 verts, faces, normals, _ = marching_cubes(density, level, spacing=(h, h, h))
