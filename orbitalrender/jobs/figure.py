@@ -132,7 +132,7 @@ def picture_size(options: FigureOptions, count: int, ncols: int, strip: bool = F
 
     panel = getattr(options, "panel_px", PANEL_PX)
     nrows = -(-count // ncols)
-    probe = fit_geometry(10 * panel, panel + 30, 1, 1, True, True, options.dpi)
+    probe = fit_geometry(10 * panel, panel + 30, dpi=options.dpi)
     return (options.width_px or ncols * panel + probe.legend_px,
             options.height_px or nrows * (panel + probe.title_px))
 
@@ -211,7 +211,8 @@ def figure_job(states: Sequence, options: FigureOptions, *,
     unit = options.time_unit
     titles = ([f"t = {t:g} {unit}" for t in options.times] if strip else
               [surface_title(s) for s in surfaces])
-    fig, renders = small_multiples(surfaces, titles, ncols, *size, shared_target=strip, **compose, **render)
+    fig, renders = small_multiples(surfaces, titles, ncols=ncols, width_px=size[0], height_px=size[1],
+                                   shared_target=strip, **compose, **render)
     if strip:
         md = figure_metadata(first.state.at_time(0.0), first.fraction_requested, None,
                              first.lattice_shape[0], times_au=[s.state.time_au for s in surfaces],
