@@ -78,21 +78,22 @@ def _lab_in_gamut(lab: np.ndarray) -> np.ndarray:
     return np.all((linear >= -1e-4) & (linear <= 1 + 1e-4), axis=1)
 
 
-def _largest_in_gamut(make_lab, upper: float) -> float:
-    """Largest scale c in [0, upper] for which make_lab(c) is entirely inside sRGB (bisection)."""
-    lo, hi = 0.0, upper
+def _largest_in_gamut(make_lab, upper: float, count: int = 1) -> np.ndarray:
+    """Largest scales c in [0, upper] for which each of the `count` colour sets
+    make_lab(c) (c of shape (count,), result (count, H, 3)) lies entirely inside sRGB;
+    one bisection for all sets at once."""
+    lo, hi = np.zeros(count), np.full(count, upper)
     for _ in range(40):
         c = 0.5 * (lo + hi)
-        if np.all(_lab_in_gamut(make_lab(c))):
-            lo = c
-        else:
-            hi = c
+        lab = make_lab(c)
+        fits = _lab_in_gamut(lab.reshape(-1, 3)).reshape(count, -1).all(axis=1)
+        lo, hi = np.where(fits, c, lo), np.where(fits, hi, c)
     return lo
 
 
 def _circle(lightness, chroma, hues: np.ndarray) -> np.ndarray:
-    return np.stack([np.broadcast_to(lightness, hues.shape), chroma * np.cos(hues),
-                     chroma * np.sin(hues)], axis=1)
+    a, b = chroma * np.cos(hues), chroma * np.sin(hues)
+    return np.stack([np.broadcast_to(lightness, a.shape), a, b], axis=-1)
 
 
 @cache
@@ -100,7 +101,8 @@ def _uniform_lab() -> np.ndarray:
     """Constant-L* circle with the largest C* that fits in sRGB at every hue, over L* 50..85."""
     hues = np.deg2rad(_HUE_AT_ZERO_DEG) + 2 * np.pi * np.arange(LUT_SIZE) / LUT_SIZE
     candidates = np.arange(50.0, 86.0, 1.0)
-    chroma = [_largest_in_gamut(lambda c, L=L: _circle(L, c, hues), 130.0) for L in candidates]
+    chroma = _largest_in_gamut(lambda c: _circle(candidates[:, None], c[:, None], hues[None, :]),
+                               130.0, len(candidates))
     best = int(np.argmax(chroma))
     return _circle(candidates[best], chroma[best], hues)
 
@@ -113,9 +115,10 @@ def _cvd_lab() -> np.ndarray:
     t = 2 * np.pi * np.arange(LUT_SIZE) / LUT_SIZE
 
     def lab(c):
-        return np.stack([60.0 + 0.45 * c * np.cos(t), 0.25 * c * np.cos(t), c * np.sin(t)], axis=1)
+        c = np.asarray(c)[..., None]
+        return np.stack([60.0 + 0.45 * c * np.cos(t), 0.25 * c * np.cos(t), c * np.sin(t)], axis=-1)
 
-    return lab(_largest_in_gamut(lab, 120.0))
+    return lab(_largest_in_gamut(lab, 120.0)[0])
 
 
 @cache

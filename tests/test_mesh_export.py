@@ -13,7 +13,10 @@ import scipy.constants
 import trimesh
 from scipy.optimize import brentq
 
+from orbitalrender import parse_state
 from orbitalrender.errors import UserInputError
+from orbitalrender.mesh import export
+from orbitalrender.mesh.bodies import face_components, submesh
 from orbitalrender.mesh.export import (
     length_scale,
     mesh_suffix,
@@ -81,8 +84,8 @@ def test_report_volume_matches_file_and_closed_form(tmp_path, unit):
     surface = _surface_1s()
     factor, unit = length_scale(surface.vertices_a0, unit)
     path = tmp_path / "ball.ply"
-    written = write_bodies(path, [surface_mesh(surface, factor)])
-    report = surface_report(surface, written, factor, unit)
+    write_bodies(path, [surface_mesh(surface, factor)])
+    report = surface_report(surface, factor, unit)
     write_report(tmp_path / "r.json", report)
     report = json.loads((tmp_path / "r.json").read_text())
     for key in ("fraction_requested", "fraction_enclosed", "level", "lattice_shape", "spacing_a0",
@@ -101,8 +104,7 @@ def test_report_volume_matches_file_and_closed_form(tmp_path, unit):
 def test_report_after_size_has_material_volume():
     surface = _surface_1s()
     factor, unit = length_scale(surface.vertices_a0, size_mm=40.0)
-    mesh = surface_mesh(surface, factor)
-    report = surface_report(surface, mesh, factor, unit, size_mm=40.0)
+    report = surface_report(surface, factor, unit, size_mm=40.0)
     # a ball of 40 mm diameter: 4/3 pi 2^3 cm^3
     assert report["material_cm3"] == pytest.approx(4 / 3 * math.pi * 2.0**3, rel=0.01)
     assert report["size_mm"] == 40.0
@@ -204,3 +206,36 @@ def test_a_sign_split_at_a_size_is_that_size_all_bodies_together(tmp_path):
     assert len(scene.geometry) == 2
     assert max(scene.extents) == pytest.approx(50.0, rel=0.01)
     assert report["extent_mm"] == pytest.approx(list(scene.extents), rel=1e-6)
+
+
+@pytest.mark.parametrize("suffix", [".ply", ".stl", ".glb"])
+def test_report_from_the_surface_equals_trimesh_on_the_file(tmp_path, suffix):
+    # 3d_z2 at F = 0.8: two lobes and a ring; the file's figures as trimesh computes them
+    # (edge-connected parts, V - E + F of each, is_watertight, divergence-theorem volume)
+    surface = extract_surface(parse_state("3dz2"), 0.8, resolution=40)
+    factor, unit = length_scale(surface.vertices_a0, size_mm=30.0)
+    path = tmp_path / f"d{suffix}"
+    written = write_bodies(path, [surface_mesh(surface, factor)])
+    report = surface_report(surface, factor, unit, size_mm=30.0)
+    parts = face_components(written)
+    assert report["components"] == len(parts) == 3
+    assert report["euler_characteristics"] == [int(submesh(written, p).euler_number) for p in parts]
+    assert report["watertight"] == written.is_watertight is True
+    assert report["volume_units3"] == pytest.approx(float(written.volume), rel=1e-5)
+    assert report["faces"] == len(written.faces)
+
+
+def test_a_file_that_reads_back_with_another_volume_is_refused(tmp_path, monkeypatch):
+    surface = _surface_1s()
+    path = tmp_path / "ball.ply"
+    reload = export._reload
+
+    def stretched(p, suffix):
+        mesh = reload(p, suffix)
+        mesh.vertices = mesh.vertices * 1.001
+        return mesh
+
+    monkeypatch.setattr(export, "_reload", stretched)
+    with pytest.raises(OSError, match="read back enclosing"):
+        write_bodies(path, [surface_mesh(surface)])
+    assert not path.exists()

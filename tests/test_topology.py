@@ -106,4 +106,66 @@ def test_as_dict_is_json_ready():
     again = json.loads(json.dumps(report))
     assert again["components"] == 1 and again["genus"] == [0] and again["closed"] is True
     assert set(again) == {"components", "euler_characteristics", "genus", "volumes_a0_3",
-                          "volume_a0_3", "area_a0_2", "closed", "regions"}
+                          "volume_a0_3", "area_a0_2", "closed", "regions", "face_counts", "oriented"}
+
+
+def test_parts_are_numbered_by_first_vertex_whatever_the_face_order():
+    # the torus's vertices come first, the cube's faces first: part 0 is the torus
+    b_v, b_f = _torus(nu=24, nv=12)
+    a_v, a_f = _cube(offset=(10.0, 0.0, 0.0))
+    surf = _surface(np.concatenate([b_v, a_v]), np.concatenate([a_f + len(b_v), b_f]))
+    topo = topology(surf)
+    assert topo.euler_characteristics == (0, 2) and topo.face_counts == (len(b_f), 12)
+    count, labels = component_labels(surf)
+    assert count == 2 and labels[0] == 0 and labels[-1] == 1
+
+
+def test_a_flipped_face_is_not_oriented():
+    v, f = _cube()
+    f = f.copy()
+    f[3] = f[3, ::-1]
+    topo = topology(_surface(v, f))
+    assert topo.closed and not topo.oriented
+    assert topology(_surface(*_cube())).oriented
+
+
+def _reference_figures(vertices, faces):
+    """Parts, V - E + F per part and closedness by the direct rule: rows of sorted vertex
+    pairs made unique with np.unique(axis=0), parts from the face-vertex graph."""
+    from scipy.sparse import coo_matrix
+    from scipy.sparse.csgraph import connected_components
+
+    nv = len(vertices)
+    rows = np.concatenate([faces[:, 0], faces[:, 1], faces[:, 2]])
+    cols = np.concatenate([faces[:, 1], faces[:, 2], faces[:, 0]])
+    graph = coo_matrix((np.ones(len(rows)), (rows, cols)), shape=(nv, nv))
+    _, labels = connected_components(graph, directed=False)
+    e = np.sort(np.concatenate([faces[:, [0, 1]], faces[:, [1, 2]], faces[:, [2, 0]]]), axis=1)
+    edges, shared = np.unique(e, axis=0, return_counts=True)
+    figures = []
+    for part in np.unique(labels[faces[:, 0]]):
+        in_part = labels[faces[:, 0]] == part
+        v_count = len(np.unique(faces[in_part]))
+        e_part = labels[edges[:, 0]] == part
+        figures.append((v_count - int(e_part.sum()) + int(in_part.sum()),
+                        bool(np.all(shared[e_part] == 2)), int(in_part.sum())))
+    return sorted(figures)
+
+
+@pytest.mark.parametrize("label", ["1s", "2pz", "3,2,0", "3,2,1", "3dz2", "3s", "4fxyz", "2s + 2pz"])
+def test_topology_matches_the_direct_rule_and_trimesh(label):
+    import trimesh
+
+    from orbitalrender import extract_surface, parse_state
+    from orbitalrender.mesh.bodies import face_components, submesh
+
+    surf = extract_surface(parse_state(label), 0.8, resolution=40)
+    topo = topology(surf)
+    mine = sorted(zip(topo.euler_characteristics, [g is not None for g in topo.genus], topo.face_counts))
+    assert mine == _reference_figures(surf.vertices_a0, surf.faces)
+    mesh = trimesh.Trimesh(surf.vertices_a0, surf.faces, process=False)
+    parts = face_components(mesh)
+    assert sorted(int(submesh(mesh, p).euler_number) for p in parts) == sorted(topo.euler_characteristics)
+    assert topo.closed and topo.oriented and mesh.is_watertight
+    assert topo.volume_a0_3 == pytest.approx(float(mesh.volume), rel=1e-12)
+    assert topo.area_a0_2 == pytest.approx(float(mesh.area), rel=1e-12)

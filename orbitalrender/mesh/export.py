@@ -5,7 +5,10 @@ one module per format beside this one).  Coordinates are in a0 unless another
 length unit is asked for; ``size_mm`` instead scales the surface so that the
 largest side of its bounding box is that many millimetres (the unit printer
 slicers assume).  Every file is written through :func:`orbitalrender.atomic.atomic_path`
-and checked by reloading it with trimesh before it replaces an earlier file.
+and checked by reloading it with trimesh (vertex and face counts, enclosed volume) before
+it replaces an earlier file.  The report's figures of a file that holds the surface as it
+is (no print preparation) follow from the surface's own topology and the scale: counts and
+Euler characteristics are unchanged, volumes scale by factor^3.
 """
 
 from __future__ import annotations
@@ -24,9 +27,8 @@ from ..errors import UserInputError
 from ..state.phase import sign_rotation
 from ..state.units import a0_to
 from ..surface.model import Surface
-from ..surface.topology import topology
+from ..surface.topology import Topology, mesh_topology, topology, volume_spread
 from . import glb, obj, ply, stl, threemf
-from .bodies import face_components, submesh
 
 __all__ = [
     "MESH_SUFFIXES",
@@ -44,6 +46,11 @@ __all__ = [
 #: File suffix -> the format module that encodes it.
 MESH_SUFFIXES = {m.SUFFIX: m for m in (ply, obj, stl, glb, threemf)}
 _MM3_PER_CM3 = 1000.0
+#: Largest change of the enclosed volume between the bodies and the file read back,
+#: relative to the sum of the unsigned tetrahedron volumes: float32 coordinates round at
+#: 6e-8 relative, so this leaves a wide margin for storage while a mis-scaled, mirrored or
+#: garbled file fails it (the counts catch lost faces).
+_VOLUME_TOLERANCE = 1e-5
 
 
 def mesh_suffix(path: str | os.PathLike) -> str:
@@ -214,33 +221,38 @@ def write_bodies(path: str | os.PathLike, bodies: Sequence[trimesh.Trimesh],
         if len(loaded.faces) != faces or (suffix != ".stl" and len(loaded.vertices) != vertices):
             raise OSError(f"{path} read back with {len(loaded.vertices)} vertices and "
                           f"{len(loaded.faces)} faces instead of {vertices} and {faces}")
+        written = [volume_spread(b.vertices, b.faces) for b in bodies]
+        volume, spread = volume_spread(loaded.vertices, loaded.faces)
+        expected = sum(v for v, _ in written)
+        if abs(volume - expected) > _VOLUME_TOLERANCE * max(spread, sum(s for _, s in written)):
+            raise OSError(f"{path} read back enclosing {volume:.9g} instead of {expected:.9g} "
+                          "cubic units")
         if check is not None:
             check(loaded)
     return loaded
 
 
-def mesh_summary(mesh: trimesh.Trimesh, factor: float) -> dict:
-    """Counts, components, Euler characteristics, watertightness and volume of a written mesh
-    whose lengths are a0 times `factor` (volume returned in a0^3 and in the file's unit^3)."""
-    parts = face_components(mesh)
-    chis = []
-    for faces in parts:
-        part = submesh(mesh, faces)
-        chis.append(int(part.euler_number))
-    volume = float(mesh.volume) if len(mesh.faces) else 0.0
+def mesh_summary(figures: Topology, factor: float, vertices: int, faces: int) -> dict:
+    """Counts, components, Euler characteristics (largest part first), watertightness and
+    volume of a written mesh whose lengths are a0 times `factor`.
+
+    `figures` is the topology of the mesh in a0 (volumes in a0^3); the volume is returned
+    in a0^3 and in the file's unit^3.  Watertight means closed with a consistent winding.
+    """
+    order = sorted(range(figures.components), key=lambda k: -figures.face_counts[k])
     return {
-        "vertices": int(len(mesh.vertices)),
-        "faces": int(len(mesh.faces)),
-        "components": len(parts),
-        "euler_characteristics": chis,
-        "watertight": bool(mesh.is_watertight),
-        "volume_a0_3": volume / factor**3,
-        "volume_units3": volume,
+        "vertices": int(vertices),
+        "faces": int(faces),
+        "components": int(figures.components),
+        "euler_characteristics": [int(figures.euler_characteristics[k]) for k in order],
+        "watertight": bool(figures.closed and figures.oriented),
+        "volume_a0_3": float(figures.volume_a0_3),
+        "volume_units3": float(figures.volume_a0_3) * factor**3,
     }
 
 
-def surface_report(surface: Surface, written: trimesh.Trimesh, factor: float, unit: str,
-                   size_mm: float | None = None) -> dict:
+def surface_report(surface: Surface, factor: float, unit: str, size_mm: float | None = None,
+                   written: trimesh.Trimesh | None = None) -> dict:
     """The JSON-ready report of an export: the surface's provenance and the written mesh's
     geometry (top level), the surface's own topology (``surface``, in a0, from
     :func:`orbitalrender.surface.topology.topology`).
@@ -250,7 +262,20 @@ def surface_report(surface: Surface, written: trimesh.Trimesh, factor: float, un
     (struts, base and cut included) and ``size_mm``, the largest of them;
     ``size_requested_mm`` (`size_mm`, or None at a given scale); ``orbital_extent_mm``,
     the sides of the whole surface's own bounding box at that scale; and
-    ``material_cm3``, the solid volume of the written model."""
+    ``material_cm3``, the solid volume of the written model.
+
+    `written` is the mesh written when it is not the surface itself scaled by `factor`
+    (a printable model with struts and base); its figures are then computed from it.
+    Otherwise they follow from the surface's topology, computed once.
+    """
+    figures = topology(surface)
+    if written is None:
+        summary = mesh_summary(figures, factor, len(surface.vertices_a0), len(surface.faces))
+        extent_units = np.ptp(surface.vertices_a0, axis=0) * factor
+    else:
+        model = mesh_topology(np.asarray(written.vertices) / factor, written.faces)
+        summary = mesh_summary(model, factor, len(written.vertices), len(written.faces))
+        extent_units = np.ptp(written.vertices, axis=0)
     report = {
         "state": surface.state.label if surface.state is not None else None,
         "fraction_requested": surface.fraction_requested,
@@ -263,11 +288,11 @@ def surface_report(surface: Surface, written: trimesh.Trimesh, factor: float, un
         "units_per_a0": factor,
         "extent_a0": [float(e) for e in np.ptp(surface.vertices_a0, axis=0)],
     }
-    report.update(mesh_summary(written, factor))
-    report["surface"] = topology(surface).as_dict()
+    report.update(summary)
+    report["surface"] = figures.as_dict()
     if unit == "mm":
         report["mm_per_a0"] = factor
-        report["extent_mm"] = [float(e) for e in np.ptp(written.vertices, axis=0)]
+        report["extent_mm"] = [float(e) for e in extent_units]
         report["size_mm"] = max(report["extent_mm"])
         report["size_requested_mm"] = None if size_mm is None else float(size_mm)
         report["orbital_extent_mm"] = [e * factor for e in report["extent_a0"]]

@@ -122,6 +122,7 @@ def export_mesh(surface: Surface, path: str | os.PathLike, *, units: str = "a0",
     comment = f"{label}; F = {surface.fraction_requested:g}; units {unit}"
     extra: dict = {}
     files: list[str] = []
+    written = None
 
     def write(target: Path, bodies, names=None, check=None):
         loaded = write_bodies(target, bodies, names=names, comment=comment, units=unit, check=check)
@@ -133,12 +134,11 @@ def export_mesh(surface: Surface, path: str | os.PathLike, *, units: str = "a0",
         summaries = []
         for i, piece in enumerate(solid_parts(mesh), start=1):
             target = sibling_path(path, f"part{i}")
-            written = write(target, [piece])
-            summaries.append({"file": str(target), "problems": single_solid_problems(written),
-                              "volume_mm3": float(written.volume),
-                              "thin_walls": thin_spots(written, options.min_thickness_mm).as_dict()})
+            read_back = write(target, [piece])
+            summaries.append({"file": str(target), "problems": single_solid_problems(read_back),
+                              "volume_mm3": float(read_back.volume),
+                              "thin_walls": thin_spots(read_back, options.min_thickness_mm).as_dict()})
         extra["parts"] = summaries
-        written = mesh
     elif printable is not None:
         model = make_printable(mesh, printable, size_mm=size_mm)
         factor *= model.scale
@@ -165,11 +165,11 @@ def export_mesh(surface: Surface, path: str | os.PathLike, *, units: str = "a0",
         extra["bodies"] = {name: {"label": labels[name], "faces": int(len(b.faces)),
                                   "watertight": bool(b.is_watertight), "mean_phase_rad": _mean_phase(b)}
                            for name, b in named.items()}
-        written = mesh
     else:
-        written = write(path, [mesh])
+        write(path, [mesh])
 
-    report = surface_report(surface, written, factor, unit, size_mm)
+    # only a printable model differs from the surface scaled by `factor`
+    report = surface_report(surface, factor, unit, size_mm, written=written)
     report.update(extra)
     report["files"] = files
     return report

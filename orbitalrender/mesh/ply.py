@@ -74,7 +74,14 @@ def encode_ply(bodies: Sequence[trimesh.Trimesh], comment: str = "") -> bytes:
 
 def _concatenate(bodies: Sequence[trimesh.Trimesh]) -> trimesh.Trimesh:
     """One mesh from several with a ``body`` index per vertex; float attributes as float32."""
-    mesh = concatenate(bodies)
+    if len(bodies) == 1:  # a light view of the body: its arrays shared, its attributes replaced below
+        body = bodies[0]
+        colours = body.visual.vertex_colors if body.visual.kind == "vertex" else None
+        mesh = trimesh.Trimesh(body.vertices, body.faces, vertex_colors=colours, process=False,
+                               validate=False)
+        mesh.vertex_attributes.update(body.vertex_attributes)
+    else:
+        mesh = concatenate(bodies)
     if len(bodies) > 1:
         mesh.vertex_attributes["body"] = np.concatenate(
             [np.full(len(b.vertices), i, dtype=np.int32) for i, b in enumerate(bodies)])

@@ -41,6 +41,7 @@ from ..state.model import State
 from ..state.phase import is_real
 from .level import LevelResult, check_fraction, level_for_fraction
 from .model import Surface
+from .topology import volume_spread
 
 __all__ = ["extract_surface", "surface_at_level", "surface_box", "vertex_normals"]
 
@@ -178,14 +179,9 @@ def _march(field: np.ndarray, amplitude: float, lattice: Lattice):
     spacing = np.asarray(lattice.spacing_a0)
     verts = np.asarray(lattice.origin_a0) + (verts.astype(np.float64) + offset) * spacing
     faces = faces.astype(np.int64)
-    if _signed_volume(verts, faces) < 0:  # keep outward (counter-clockwise from outside)
+    if volume_spread(verts, faces)[0] < 0:  # keep outward (counter-clockwise from outside)
         faces = faces[:, ::-1].copy()
     return verts, faces, normals.astype(np.float64)
-
-
-def _signed_volume(verts: np.ndarray, faces: np.ndarray) -> float:
-    a, b, c = verts[faces[:, 0]], verts[faces[:, 1]], verts[faces[:, 2]]
-    return float(np.einsum("ij,ij->", a, np.cross(b, c))) / 6.0
 
 
 def vertex_normals(vertices_a0: np.ndarray, faces: np.ndarray) -> np.ndarray:

@@ -56,8 +56,21 @@ _POLAR_NODES = 2048
 _POLAR_NODES_2D, _AZIMUTH_NODES_2D = 384, 768
 #: (r, cos theta) product grid of the "polar-grid" rule.
 _POLAR_GRID = (2048, 1024)
-#: Becke grid of the "space-grid" rule, per centre (r, cos theta, phi).
-_SPACE_GRID = (320, 96, 192)
+#: Becke grid of the "space-grid" rule, per centre: radial nodes and the fewest cos(theta)
+#: nodes (theta from the line through the centres); tests/test_level.py compares it with
+#: a grid of (320, 96, 192) at several separations, signs, states and Z.
+_SPACE_RADIAL, _SPACE_POLAR = 320, 64
+#: phi nodes per unit of the largest |m| about the line through the centres: psi about
+#: that line is a sum of e^{i m phi} (|m| <= l; the m of the terms when the line is the z
+#: axis), so |psi|^2 has no frequency above 2 |m| and the trapezoid rule needs few nodes
+#: (64 per unit keeps a 2p pair across the line within 1e-4); at least
+#: _SPACE_AZIMUTH_MIN of them.
+_SPACE_AZIMUTH_PER_M, _SPACE_AZIMUTH_MIN = 64, 4
+#: phi nodes when the centres do not lie on one line.
+_SPACE_AZIMUTH = 128
+#: Directions at least: with few phi nodes the cos(theta) rule gets more (a pair of 3d_z2
+#: moves by 3e-4 between 64 and 128 cos(theta) nodes and settles within 5e-5 from 256 on).
+_SPACE_DIRECTIONS = 1024
 #: Every this many directions bracket the level before the full grid refines it.
 _BRACKET_STRIDE = 8
 #: Log-spaced bins of the first pass over a user lattice.
@@ -234,6 +247,12 @@ def _central_change(d: np.ndarray, axis: int) -> np.ndarray:
     return np.moveaxis(out, 0, axis)
 
 
+def _line_jumps(lines: np.ndarray) -> np.ndarray:
+    """Change of the density across each node's radial cell (at least the smallest float)."""
+    jump = _central_change(lines, -2)
+    return np.maximum(jump, np.finfo(float).tiny, out=jump)
+
+
 def _smoothed_mass(lines: np.ndarray, mass: np.ndarray, jump: np.ndarray, level: float) -> float:
     """sum of mass x (share of each node's radial cell with density >= level)."""
     return float(np.vdot(mass, np.clip(0.5 + (lines - level) / jump, 0.0, 1.0)))
@@ -250,8 +269,7 @@ def _lines_level(lines: np.ndarray, mass: np.ndarray, fraction: float) -> tuple[
     eighth direction first, then found using only the nodes whose cells straddle the
     bracket.
     """
-    jump = _central_change(lines, -2)
-    np.maximum(jump, np.finfo(float).tiny, out=jump)
+    jump = _line_jumps(lines)
     top = float(lines.max())
     sub = (Ellipsis, slice(None, None, _BRACKET_STRIDE))
     ls, ms, js = (np.ascontiguousarray(a[sub]) for a in (lines, mass, jump))
@@ -287,17 +305,50 @@ def _polar_grid(state: State, fraction: float) -> tuple[float, float]:
     return _lines_level(density, np.outer(wr * r * r, 2.0 * np.pi * wc) * density, fraction)
 
 
-def _space_grid(state: State, fraction: float) -> tuple[float, float]:
-    nr, nc, nphi = _SPACE_GRID
+def _centre_line(state: State) -> np.ndarray | None:
+    """Unit vector of the line through every centre (z for one centre), or None."""
+    centres = np.asarray(state.centres_a0, dtype=float)
+    if len(centres) == 1:
+        return np.array([0.0, 0.0, 1.0])
+    offsets = centres[1:] - centres[0]
+    axis = offsets[int(np.argmax(np.linalg.norm(offsets, axis=1)))]
+    axis = axis / np.linalg.norm(axis)
+    off_line = offsets - np.outer(offsets @ axis, axis)
+    scale = float(np.max(np.linalg.norm(offsets, axis=1)))
+    return axis if float(np.max(np.linalg.norm(off_line, axis=1))) <= 1e-9 * scale else None
+
+
+def _space_grid_shape(state: State) -> tuple[tuple[int, int, int], np.ndarray | None]:
+    """(r, cos theta, phi) nodes per centre of the "space-grid" rule and its polar axis."""
+    axis = _centre_line(state)
+    if axis is None:
+        azimuth = _SPACE_AZIMUTH
+    else:
+        along_z = abs(float(axis[2])) > 1.0 - 1e-12
+        m_top = max(abs(t.m) if along_z else t.l for t in state.terms)
+        azimuth = min(_SPACE_AZIMUTH, max(_SPACE_AZIMUTH_MIN, _SPACE_AZIMUTH_PER_M * m_top))
+    polar = max(_SPACE_POLAR, _SPACE_DIRECTIONS // azimuth)
+    return (_SPACE_RADIAL, polar, azimuth), axis
+
+
+def _space_lines(state: State, shape: tuple[int, int, int],
+                 axis: np.ndarray | None) -> tuple[np.ndarray, np.ndarray]:
+    """Densities and masses on the Becke grid of `shape` about `axis`, as radial lines
+    of shape (centre, radius, direction)."""
+    nr, nc, nphi = shape
     grid = space_grid(state.centres_a0, radial_scale_a0=state.extent_a0(), n_radial=nr,
-                      n_polar=nc, n_azimuth=nphi)
+                      n_polar=nc, n_azimuth=nphi, axis=axis)
     p = grid.points_a0
     density = np.empty(len(p))
     for s in range(0, len(p), _CHUNK):
         q = p[s:s + _CHUNK]
         density[s:s + _CHUNK] = state.density(q[:, 0], q[:, 1], q[:, 2])
-    lines = density.reshape(-1, nr, nc * nphi)  # (centre, radius, direction)
-    return _lines_level(lines, grid.weights_a0_3.reshape(lines.shape) * lines, fraction)
+    lines = density.reshape(-1, nr, nc * nphi)
+    return lines, grid.weights_a0_3.reshape(lines.shape) * lines
+
+
+def _space_grid(state: State, fraction: float) -> tuple[float, float]:
+    return _lines_level(*_space_lines(state, *_space_grid_shape(state)), fraction)
 
 
 def _analytic(state: State, fraction: float, method: str) -> LevelResult:
