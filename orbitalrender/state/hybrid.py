@@ -25,6 +25,12 @@ sp3d   axial 0, 1/2, 1/2 (d_z2);       +z, -z, then +x, 120, 240 degrees
 sp3d2  1/6, 1/2, 1/3 (d_z2, d_x2-y2)   +x, -x, +y, -y, +z, -z
 =====  ==============================  ==========================================
 
+The radial functions R_nl of this project are positive at the nucleus, so far out they
+have the sign (-1)^(n-l-1) (2s and 3p are negative beyond their last node).  The textbook
+tables assume radial parts positive where the density is largest, i.e. far out; so that
+each member's large outer lobe points along its u and is positive, member coefficients on
+shell n are those of :func:`hybrid_coefficients` times (-1)^(n-l-1) for the l part.
+
 sp3d is the one set whose members are not all equivalent: the axial pair are
 (p_z +- d_z2)/sqrt(2) and the equatorial three are sp2 hybrids in the xy plane.
 """
@@ -185,7 +191,7 @@ def hybrid_member(name: str, k: int, n: int | None = None, *, Z: float = 1.0,
     Examples
     --------
     >>> h = hybrid_member("sp", 1)
-    >>> h.label, h.is_stationary, bool(h.psi(0, 0, 1.0).real > h.psi(0, 0, -1.0).real)
+    >>> h.label, h.is_stationary, bool(h.psi(0, 0, 5.0).real > -h.psi(0, 0, -5.0).real > 0)
     ('sp[1]', True, True)
     """
     if name not in HYBRID_SETS:
@@ -198,8 +204,12 @@ def hybrid_member(name: str, k: int, n: int | None = None, *, Z: float = 1.0,
 
     basis, matrix = hybrid_coefficients(name)
     prefix = "" if n is None else str(shell)
-    parts = [(c, real_orbital(shell, *REAL_LABELS[b], Z, reduced_mass_ratio))
-             for b, c in zip(basis, matrix[k - 1]) if c]
+    parts = []
+    for b, c in zip(basis, matrix[k - 1]):
+        l, m = REAL_LABELS[b]
+        if c:
+            outer_sign = (-1) ** (shell - l - 1)  # sign of R_nl beyond its last node
+            parts.append((outer_sign * c, real_orbital(shell, l, m, Z, reduced_mass_ratio)))
     return superpose(parts, label=f"{prefix}{name}[{k}]")
 
 

@@ -374,7 +374,10 @@ def state_properties(state: State) -> EigenProperties | SuperpositionProperties:
                 for n, _, _, c, _ in terms)
         mean_r, mean_r2, mean_inv = _quadrature_moments(state)
         ev = e * HARTREE_EV
-        if not state.is_stationary:
+        if state.is_stationary:
+            notes.append(f"a stationary state: every term has n = {state.max_n}, so the energy is "
+                         f"exactly E_{state.max_n} and the density does not change in time")
+        else:
             notes.append("not an energy eigenstate: the energy is a mean, the density changes in time")
     else:
         e = ev = mean_r = mean_r2 = mean_inv = None
