@@ -32,9 +32,10 @@ from scipy.interpolate import PchipInterpolator
 
 from ..state.hydrogen import psi_nlm_xyz, radial_function, spherical_harmonic_xyz
 from ..state.model import State
+from .grid import Box
 from .memory import require_bytes
 
-__all__ = ["Cloud", "cloud_bytes", "draw_cloud", "MAX_POINTS"]
+__all__ = ["Cloud", "Slab", "cloud_bytes", "draw_cloud", "parse_slab", "MAX_POINTS"]
 
 _PANELS = 1 << 14
 _GL_X, _GL_W = np.polynomial.legendre.leggauss(8)
@@ -215,3 +216,68 @@ def draw_cloud(state: State, count: int, *, seed: int | None = None) -> Cloud:
         kept_psi.append(psi)
         have += len(points)
     return Cloud(state, np.concatenate(kept_points), np.concatenate(kept_psi), seed, proposals)
+
+
+_AXES = "xyz"
+
+
+@dataclass(frozen=True)
+class Slab:
+    """The points with |coordinate[axis] - centre_a0| <= half_thickness_a0: a thin section.
+
+    Attributes
+    ----------
+    axis : {"x", "y", "z"}
+        Normal of the slab.
+    centre_a0 : float
+        Position of the mid-plane along `axis`, a0.
+    half_thickness_a0 : float
+        Half the thickness, a0 (> 0).
+    """
+
+    axis: str
+    centre_a0: float
+    half_thickness_a0: float
+
+    def __post_init__(self) -> None:
+        if self.axis not in _AXES:
+            raise ValueError(f"slab axis must be x, y or z, got {self.axis!r}")
+        if not math.isfinite(self.centre_a0):
+            raise ValueError(f"slab centre must be a finite number of a0, got {self.centre_a0}")
+        if not (self.half_thickness_a0 > 0 and math.isfinite(self.half_thickness_a0)):
+            raise ValueError(f"slab half-thickness must be a positive number of a0, "
+                             f"got {self.half_thickness_a0}")
+
+    def contains(self, points_a0: np.ndarray) -> np.ndarray:
+        """Boolean mask of the points (N, 3) inside the slab."""
+        along = points_a0[:, _AXES.index(self.axis)]
+        return np.abs(along - self.centre_a0) <= self.half_thickness_a0
+
+    def check_within(self, box: Box) -> None:
+        """Raise ValueError unless the slab's mid-plane cuts the cube `box`."""
+        k = _AXES.index(self.axis)
+        lo = box.centre_a0[k] - box.half_width_a0
+        hi = box.centre_a0[k] + box.half_width_a0
+        if not lo <= self.centre_a0 <= hi:
+            raise ValueError(f"the slab {self.axis} = {self.centre_a0:g} lies outside the box, "
+                             f"which spans {self.axis} = {lo:.3g} to {hi:.3g} a0")
+
+
+def parse_slab(text: str) -> Slab:
+    """Read ``AXIS=CENTRE,HALF`` (a0), e.g. ``z=0,0.5`` for the points with |z| <= 0.5 a0.
+
+    Examples
+    --------
+    >>> parse_slab("z=0,0.5")
+    Slab(axis='z', centre_a0=0.0, half_thickness_a0=0.5)
+    """
+    axis, sep, numbers = str(text).replace(" ", "").partition("=")
+    values = numbers.split(",")
+    try:
+        if not sep or len(values) != 2:
+            raise ValueError
+        centre, half = (float(v) for v in values)
+    except ValueError:
+        raise ValueError(f"cannot read slab {text!r}: expected AXIS=CENTRE,HALF_THICKNESS in a0, "
+                         "e.g. z=0,0.5") from None
+    return Slab(axis, centre, half)

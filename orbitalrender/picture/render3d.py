@@ -380,6 +380,7 @@ def frame_camera(surfaces: Surface | Sequence[Surface], camera: Camera = Camera(
     Parameters
     ----------
     surfaces : Surface or sequence of Surface
+        May be empty when `extra_points_a0` is given (a point cloud).
     camera : Camera
         Values already set are kept.
     aspect : float
@@ -391,10 +392,12 @@ def frame_camera(surfaces: Surface | Sequence[Surface], camera: Camera = Camera(
     -------
     Camera
     """
-    surfaces = _as_list(surfaces)
-    pts = np.concatenate([s.vertices_a0 for s in surfaces])
+    parts = [s.vertices_a0 for s in ([surfaces] if isinstance(surfaces, Surface) else surfaces)]
     if extra_points_a0 is not None:
-        pts = np.concatenate([pts, np.asarray(extra_points_a0, dtype=float).reshape(-1, 3)])
+        parts.append(np.asarray(extra_points_a0, dtype=float).reshape(-1, 3))
+    if not parts or not sum(len(p) for p in parts):
+        raise ValueError("frame_camera needs surfaces or points to fit")
+    pts = np.concatenate(parts)
     target = np.array(camera.target_a0) if camera.target_a0 is not None \
         else 0.5 * (pts.min(axis=0) + pts.max(axis=0))
     rel = pts - target
