@@ -7,10 +7,10 @@ import pytest
 import trimesh
 
 import orbitalrender as orb
+from orbitalrender.colormap import psi_to_rgb, sign_colours
 from orbitalrender.lattice.cloud import Slab, draw_cloud, parse_slab
 from orbitalrender.mesh.ply import encode_ply_points
 from orbitalrender.picture.cloud import cloud_figure, cloud_report, point_colours, render_cloud
-from orbitalrender.picture.colormap import SIGN_COLOURS, psi_to_rgb
 
 
 def test_2pz_dots_are_positive_above_and_negative_below():
@@ -18,7 +18,7 @@ def test_2pz_dots_are_positive_above_and_negative_below():
     cloud = draw_cloud(orb.parse_state("2pz"), 20_000, seed=1)
     r = render_cloud(cloud, 80, 80, camera=orb.Camera(azimuth_deg=0, elevation_deg=0),
                      phase_map="sign")
-    pos, neg = np.array(SIGN_COLOURS["positive"]), np.array(SIGN_COLOURS["negative"])
+    pos, neg = np.array(sign_colours()["positive"]), np.array(sign_colours()["negative"])
     top, bottom = r.rgba[:35, :, :3].reshape(-1, 3), r.rgba[45:, :, :3].reshape(-1, 3)
     for part, near, far in ((top, pos, neg), (bottom, neg, pos)):
         px = part[np.linalg.norm(part - 1.0, axis=1) > 0.3]  # inked: away from the white paper

@@ -17,18 +17,18 @@ from pathlib import Path
 import numpy as np
 
 from ..atomic import check_writable
+from ..colormap import PHASE_SCHEMES
 from ..errors import UserInputError
 from ..lattice.memory import require_lattice_memory, surface_bytes_per_point
 from ..mesh.export import length_scale, mesh_suffix
 from ..mesh.pipeline import export_mesh
-from ..mesh.printable import (
+from ..mesh.print_options import (
     BASES,
     DEFAULT_MIN_GAP_MM,
     DEFAULT_MIN_THICKNESS_MM,
     DEFAULT_STRUT_FRACTION,
     PrintOptions,
 )
-from ..picture.colormap import PHASE_SCHEMES
 from ..picture.output import write_report
 from ..state.units import LENGTH_UNITS_PER_A0
 from .common import add_lattice_arguments, add_state_arguments, box_from_args, lattice_dtype, state_from_args

@@ -27,14 +27,16 @@ from pathlib import Path, PurePosixPath
 from typing import Any
 
 from ..cli.radial import parse_quantities
+from ..colormap import PHASE_SCHEMES
 from ..errors import UserInputError
 from ..lattice.sampler import PRECISIONS
-from ..mesh.printable import BASES
-from ..picture.colormap import PHASE_SCHEMES
+from ..mesh.print_options import BASES
+from ..picture.camera import PROJECTIONS, Camera
+from ..picture.cutaway import parse_cutaway
+from ..picture.density import DENSITY_SCALES
 from ..picture.layout import shell_states
 from ..picture.output import DPI_RANGE, check_dpi
-from ..picture.render3d import PROJECTIONS, Camera, parse_cutaway
-from ..picture.section import DENSITY_SCALES, MAX_PIXELS, MIN_PIXELS, PLANE_NAMES, plane
+from ..picture.plane import MAX_PIXELS, MIN_PIXELS, PLANE_NAMES, plane
 from ..state.model import State
 from ..state.notation import parse_state
 from ..state.units import LENGTH_UNITS_PER_A0, femtoseconds_to_au, nucleus_reduced_mass_ratio

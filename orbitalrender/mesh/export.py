@@ -19,8 +19,8 @@ import numpy as np
 import trimesh
 
 from ..atomic import atomic_path
+from ..colormap import PHASE_SCHEMES, psi_to_rgb, real_rotation
 from ..errors import UserInputError
-from ..picture.colormap import PHASE_SCHEMES, psi_to_rgb, real_rotation
 from ..state.units import a0_to
 from ..surface.model import Surface
 from ..surface.topology import topology
@@ -97,7 +97,7 @@ def surface_mesh(surface: Surface, factor: float = 1.0, scheme: str = "uniform",
     ``density`` (|psi|^2, a0^-3).
 
     `rotation` is the global phase removed before the ``"sign"`` map (default:
-    :func:`~orbitalrender.picture.colormap.real_rotation` of the surface's psi).
+    :func:`~orbitalrender.colormap.real_rotation` of the surface's psi).
 
     Examples
     --------

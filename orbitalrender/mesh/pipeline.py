@@ -16,16 +16,9 @@ from ..errors import UserInputError
 from ..lattice.grid import Lattice
 from ..surface.model import Surface
 from .export import length_scale, mesh_suffix, surface_mesh, surface_report, write_bodies
-from .printable import (
-    PrintOptions,
-    make_printable,
-    phase_band_surfaces,
-    require_single_solid,
-    single_solid_problems,
-    solid_parts,
-    split_by_sign,
-    thin_spots,
-)
+from .print_options import PrintOptions
+from .printable import make_printable, require_single_solid, single_solid_problems, solid_parts, thin_spots
+from .split import phase_band_surfaces, split_by_sign
 
 __all__ = ["export_mesh", "sibling_path", "SPLITS"]
 
@@ -68,7 +61,7 @@ def export_mesh(surface: Surface, path: str | os.PathLike, *, units: str = "a0",
     size_mm : float, optional
         Scale so the largest side of the bounding box is this many millimetres.
     phase_map : str
-        Vertex colour scheme (see :mod:`orbitalrender.picture.colormap`).
+        Vertex colour scheme (see :mod:`orbitalrender.colormap`).
     printable : PrintOptions, optional
         Join the pieces into one checked solid with struts and a base (needs `size_mm`).
     parts : bool

@@ -18,22 +18,15 @@ from collections.abc import Mapping
 
 import numpy as np
 
+from ..colormap import PHASE_SCHEMES, linear_to_srgb, psi_to_rgb, real_rotation, srgb_to_linear
 from ..lattice.cloud import Cloud, Slab
 from ..lattice.memory import require_bytes
 from ..state.notation import pretty_label
 from ..surface.level import level_for_fraction
 from ..surface.model import Surface
-from .colormap import PHASE_SCHEMES, linear_to_srgb, psi_to_rgb, real_rotation, srgb_to_linear
-from .render3d import (
-    DEFAULT_CAMERA,
-    Camera,
-    Render,
-    _projection,
-    compose_figure,
-    fit_geometry,
-    frame_camera,
-    render_surfaces,
-)
+from .camera import DEFAULT_CAMERA, Camera, frame_camera, pixel_projection
+from .compose import compose_figure, fit_geometry
+from .scene import Render, render_surfaces
 
 __all__ = ["render_cloud", "cloud_figure", "cloud_report", "cloud_title", "point_colours"]
 
@@ -129,7 +122,7 @@ def render_cloud(cloud: Cloud, width_px: int = 800, height_px: int = 800, *,
         inside = slab.contains(points)
         points, colours = points[inside], colours[inside]
     w, h = width_px * ss, height_px * ss
-    x, y, _, _ = _projection(camera, w, h).project(points)
+    x, y, _, _ = pixel_projection(camera, w, h).project(points)
     counts = np.zeros(w * h)
     sums = np.zeros((3, w * h))
     for dy, dx in foot:
@@ -197,7 +190,7 @@ def cloud_figure(cloud: Cloud, width_px: int = 900, height_px: int = 800, *, dpi
     width_px, height_px : int
         Size of the whole figure.
     dpi, units, legend, scale_bar, transparent
-        As for :func:`orbitalrender.picture.render3d.figure_3d`.
+        As for :func:`orbitalrender.picture.compose.figure_3d`.
     title : str, optional
         Default :func:`cloud_title`.
     **render_options

@@ -1,4 +1,8 @@
-"""Phase colour maps: the complex phase of psi as hue, built in CIELAB.
+"""Colour, shared by the picture and mesh steps: the complex phase of psi as hue, built in CIELAB.
+
+This module sits below both :mod:`orbitalrender.picture` and :mod:`orbitalrender.mesh`
+and imports only numpy when loaded (scikit-image is loaded when a table is first built),
+so option definitions can read :data:`PHASE_SCHEMES` cheaply.
 
 Three schemes, all of our own construction:
 
@@ -27,8 +31,6 @@ from __future__ import annotations
 from functools import cache
 
 import numpy as np
-from skimage.color import lab2rgb, lab2xyz
-from skimage.color.colorconv import rgb_from_xyz
 
 __all__ = [
     "PHASE_SCHEMES",
@@ -37,7 +39,7 @@ __all__ = [
     "phase_to_rgb",
     "psi_to_rgb",
     "real_rotation",
-    "SIGN_COLOURS",
+    "sign_colours",
     "srgb_to_linear",
     "linear_to_srgb",
 ]
@@ -48,15 +50,31 @@ LUT_SIZE = 720
 #: CIELAB hue angle (degrees) at phase 0: a warm red-orange, our own choice.
 _HUE_AT_ZERO_DEG = 30.0
 
-#: The two tones of the sign map, in sRGB: positive a warm orange, negative a mid blue.
-SIGN_COLOURS = {
-    "positive": tuple(float(c) for c in lab2rgb(np.array([[[68.0, 30.0, 62.0]]]))[0, 0]),
-    "negative": tuple(float(c) for c in lab2rgb(np.array([[[52.0, 0.0, -48.0]]]))[0, 0]),
-}
+#: The two tones of the sign map in CIELAB (L*, a*, b*): positive a warm orange, negative a
+#: mid blue (our choice).
+_SIGN_LAB = {"positive": (68.0, 30.0, 62.0), "negative": (52.0, 0.0, -48.0)}
+
+
+@cache
+def sign_colours() -> dict[str, tuple[float, float, float]]:
+    """The two tones of the sign map in sRGB, keyed ``"positive"`` and ``"negative"``.
+
+    Examples
+    --------
+    >>> sorted(sign_colours())
+    ['negative', 'positive']
+    """
+    from skimage.color import lab2rgb
+
+    return {key: tuple(float(c) for c in lab2rgb(np.array([[lab]]))[0, 0])
+            for key, lab in _SIGN_LAB.items()}
 
 
 def _lab_in_gamut(lab: np.ndarray) -> np.ndarray:
     """True where CIELAB colours lie inside the sRGB gamut (linear RGB in [0, 1], tolerance 1e-4)."""
+    from skimage.color import lab2xyz
+    from skimage.color.colorconv import rgb_from_xyz
+
     linear = lab2xyz(lab.reshape(1, -1, 3)).reshape(-1, 3) @ rgb_from_xyz.T
     return np.all((linear >= -1e-4) & (linear <= 1 + 1e-4), axis=1)
 
@@ -120,11 +138,13 @@ def phase_lut(scheme: str = "uniform") -> np.ndarray:
         # phase in (-pi/2, pi/2) is positive, the rest negative
         k = np.arange(LUT_SIZE)
         positive = (k < LUT_SIZE // 4) | (k >= 3 * LUT_SIZE // 4)
-        rgb[positive] = SIGN_COLOURS["positive"]
-        rgb[~positive] = SIGN_COLOURS["negative"]
+        rgb[positive] = sign_colours()["positive"]
+        rgb[~positive] = sign_colours()["negative"]
         return rgb
     else:
         raise ValueError(f"unknown phase colour scheme {scheme!r}: use one of {', '.join(PHASE_SCHEMES)}")
+    from skimage.color import lab2rgb
+
     return np.clip(lab2rgb(lab.reshape(1, -1, 3)).reshape(-1, 3), 0.0, 1.0)
 
 
