@@ -89,14 +89,24 @@ def test_radial_inverse_cdf_error_is_below_1e_9():
         assert np.abs(radial_cumulative(n, l, r) - u[:500]).max() < 1e-9
 
 
-def test_scaling_with_Z_and_accepted_share_of_a_real_orbital():
-    # <r> = 3/(2Z) a0 for 1s (Bethe and Salpeter); a real orbital keeps 1/S^2 = 1/2.
+def test_scaling_with_Z_and_the_azimuth_of_a_real_orbital():
+    # <r> = 3/(2Z) a0 for 1s (Bethe and Salpeter).
     c = draw_cloud(orb.parse_state("1s", Z=3.0), 100_000, seed=15)
     r = _radii(c)
     assert abs(r.mean() - 0.5) < 4 * r.std() / math.sqrt(c.count)
+    # 3d_xy ~ sin^2(2 phi) = (1 - cos 4 phi)/2, so <cos 4 phi> = -1/2 (trigonometric identity).
     real = draw_cloud(orb.parse_state("3dxy"), 50_000, seed=16)
-    se = math.sqrt(0.25 / real.proposals)
-    assert abs(real.accepted_fraction - 0.5) < 4 * se
+    cos4 = np.cos(4 * np.arctan2(real.points_a0[:, 1], real.points_a0[:, 0]))
+    assert abs(cos4.mean() + 0.5) < 4 * cos4.std() / math.sqrt(real.count)
+    assert real.accepted_fraction == 1.0
+
+
+def test_mixture_keeps_one_over_S_squared():
+    # sp3[1] = (s + p_x + p_y + p_z)/2 over complex terms |2 0 0>, |2 1 0>, |2 1 +-1> whose
+    # coefficients all have modulus 1/2, so S = 2 and 1/S^2 = 1/4 are kept.
+    c = draw_cloud(orb.parse_state("sp3[1]"), 20_000, seed=17)
+    se = math.sqrt(0.25 * 0.75 / c.proposals)
+    assert abs(c.accepted_fraction - 0.25) < 4 * se
 
 
 def test_seed_reproduces_points_and_psi():

@@ -2,15 +2,19 @@
 
 Every term c_i |n_i l_i m_i> of a State (at its own centre) has a density that can be
 drawn exactly: r from the radial density r^2 R_nl(r)^2 by inverse CDF, cos(theta)
-from |Y_l^m|^2 by inverse CDF, phi uniform.  The state itself is drawn by rejection
+from |Y_l^m|^2 by inverse CDF, phi uniform.  When all terms share one centre, n, l and
+|m| (eigenstates, real orbitals) the density factorises and only phi needs a rejection
+step, from uniform with a tight bound (kept share 1/2 for a real orbital, so the
+cos^2(m phi) or sin^2(m phi) factor is drawn exactly at little cost).  Any other state
+is drawn by rejection
 from the mixture q = sum_i w_i |psi_i|^2 with w_i = |c_i| / S, S = sum_i |c_i|: by the
 Cauchy-Schwarz inequality
 
     |sum_i c_i psi_i|^2 <= (sum_i |c_i|^2 / w_i) (sum_i w_i |psi_i|^2) = S^2 q,
 
 so a point from q kept with probability |psi|^2 / (S^2 q) is a point from |psi|^2
-(psi normalised), and the expected share kept is 1 / S^2 (1 for an eigenstate, 1/2 for
-a real orbital, 1/4 for an sp3 member).  Nothing is cut off at a box.
+(psi normalised), and the expected share kept is 1 / S^2 (1/4 for an sp3 member).
+Nothing is cut off at a box.
 
 The inverse CDFs are tables: the CDF at the edges of 2^14 panels by 8-point
 Gauss-Legendre per panel (the integrands are polynomials times an exponential, which
@@ -114,7 +118,8 @@ class Cloud:
     seed : int or None
         Seed of the numpy Generator (PCG64); the same seed gives the same points.
     proposals : int
-        Points drawn from the mixture proposal, kept or not.
+        Points drawn in space, kept or not (equal to the count when the density
+        factorises: there only phi is redrawn).
     """
 
     state: State
@@ -129,7 +134,8 @@ class Cloud:
 
     @property
     def accepted_fraction(self) -> float:
-        """Share of proposals kept (1 / S^2 on average)."""
+        """Share of proposals kept (1 / S^2 on average for the mixture, 1 when the
+        density factorises)."""
         return self.count / self.proposals if self.proposals else 1.0
 
     @property
@@ -142,6 +148,44 @@ def cloud_bytes(state: State, count: int) -> int:
     """Peak bytes :func:`draw_cloud` needs for `count` points of `state` (an upper bound)."""
     batch = _BATCH * (_BYTES_PER_PROPOSAL + _BYTES_PER_PROPOSAL_TERM * len(state.terms))
     return int(count * _BYTES_PER_POINT * 2 + batch)  # twice: the last concatenation copies
+
+
+def _one_shell(state: State) -> bool:
+    """True when every term shares one centre, n, l and |m|: then |psi|^2 is
+    R_nl^2 |P_l^|m||^2 g(phi) and each factor can be drawn on its own."""
+    return len({(t.n, t.l, abs(t.m), t.centre_a0) for t in state.terms}) == 1
+
+
+def _draw_one_shell(state: State, count: int, rng: np.random.Generator, seed: int | None) -> Cloud:
+    """r and cos(theta) by inverse CDF, phi by rejection from uniform with the tight bound
+    of g(phi) = |a_+ e^{i|m|phi} + a_- e^{-i|m|phi}|^2 <= (|a_+| + |a_-|)^2 (2 for a real
+    orbital, 1 for an eigenstate, where every phi is kept).  Y_l^{-m} = (-1)^m conj(Y_l^m)
+    (Condon-Shortley) gives a_- its sign."""
+    first = state.terms[0]
+    am = abs(first.m)
+    coef = np.array([t.coefficient for t in state.terms]) * state.phase_factors()
+    a_plus = sum(c for c, t in zip(coef, state.terms) if t.m == am)
+    a_minus = sum(c * (-1) ** am for c, t in zip(coef, state.terms) if t.m == -am and am)
+    bound = (abs(a_plus) + abs(a_minus)) ** 2
+    length = 1.0 / (state.Z * state.reduced_mass_ratio)
+    points, psi = np.empty((count, 3)), np.empty(count, dtype=complex)
+    for start in range(0, count, _BATCH):
+        size = min(_BATCH, count - start)
+        r = _radial_table(first.n, first.l)(rng.random(size)) * length
+        t = _polar_table(first.l, am)(rng.random(size))
+        phi = np.empty(size)
+        todo = np.arange(size)
+        while len(todo):
+            trial = rng.random(len(todo)) * (2.0 * math.pi)
+            g = np.abs(a_plus * np.exp(1j * am * trial) + a_minus * np.exp(-1j * am * trial)) ** 2
+            keep = rng.random(len(todo)) * bound <= g
+            phi[todo[keep]] = trial[keep]
+            todo = todo[~keep]
+        s = np.sqrt(np.clip(1.0 - t * t, 0.0, None))
+        block = np.stack([r * s * np.cos(phi), r * s * np.sin(phi), r * t], axis=1) + first.centre_a0
+        points[start:start + size] = block
+        psi[start:start + size] = state.psi(*block.T)
+    return Cloud(state, points, psi, seed, count)
 
 
 def draw_cloud(state: State, count: int, *, seed: int | None = None) -> Cloud:
@@ -180,6 +224,8 @@ def draw_cloud(state: State, count: int, *, seed: int | None = None) -> Cloud:
     count = int(count)
     require_bytes(cloud_bytes(state, count), f"a cloud of {count} points")
     rng = np.random.Generator(np.random.PCG64(seed))
+    if _one_shell(state):
+        return _draw_one_shell(state, count, rng, seed)
     terms = state.terms
     coef = np.array([t.coefficient for t in terms]) * state.phase_factors()
     weight = np.abs(coef)
@@ -190,8 +236,8 @@ def draw_cloud(state: State, count: int, *, seed: int | None = None) -> Cloud:
     kept_psi: list[np.ndarray] = []
     have = proposals = 0
     while have < count:
-        size = _BATCH if len(terms) > 1 else min(_BATCH, count - have)
-        which = rng.choice(len(terms), size=size, p=weight) if len(terms) > 1 else np.zeros(size, int)
+        size = _BATCH
+        which = rng.choice(len(terms), size=size, p=weight)
         points = np.empty((size, 3))
         for i, t in enumerate(terms):
             picked = which == i
@@ -203,15 +249,12 @@ def draw_cloud(state: State, count: int, *, seed: int | None = None) -> Cloud:
                                state.reduced_mass_ratio)
             psi += c * part
             mixture += w * np.abs(part) ** 2
-        if len(terms) > 1:
-            with np.errstate(divide="ignore", invalid="ignore"):
-                keep = rng.random(size) * (s_total**2 * mixture) < np.abs(psi) ** 2
-            take = np.flatnonzero(keep)[:count - have]
-            # proposals used: up to and including the last kept one of this batch
-            proposals += (int(take[-1]) + 1) if have + len(take) == count else size
-            points, psi = points[take], psi[take]
-        else:
-            proposals += size
+        with np.errstate(divide="ignore", invalid="ignore"):
+            keep = rng.random(size) * (s_total**2 * mixture) < np.abs(psi) ** 2
+        take = np.flatnonzero(keep)[:count - have]
+        # proposals used: up to and including the last kept one of this batch
+        proposals += (int(take[-1]) + 1) if have + len(take) == count else size
+        points, psi = points[take], psi[take]
         kept_points.append(points)
         kept_psi.append(psi)
         have += len(points)
