@@ -119,7 +119,7 @@ def test_member_is_stationary_and_has_the_shell_energy():
     props = orb.state_properties(h)
     # Bohr energy -Z^2/(2 n^2) hartree (any quantum mechanics text).
     assert props.mean_energy_hartree == pytest.approx(-4 / 18, rel=1e-12)
-    assert any("stationary" in note for note in props.notes)
+    assert any("stationary" in note for note in props.notes) and props.kind == "hybrid orbital"
 
 
 def test_notation_forms_and_refusals():
