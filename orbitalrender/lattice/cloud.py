@@ -115,7 +115,7 @@ class Cloud:
         Positions in a0.
     psi : ndarray of complex, shape (N,)
         psi at each point, a0^-3/2.
-    seed : int or None
+    seed : int
         Seed of the numpy Generator (PCG64); the same seed gives the same points.
     proposals : int
         Points drawn in space, kept or not (equal to the count when the density
@@ -125,7 +125,7 @@ class Cloud:
     state: State
     points_a0: np.ndarray
     psi: np.ndarray
-    seed: int | None
+    seed: int
     proposals: int
 
     @property
@@ -156,7 +156,7 @@ def _one_shell(state: State) -> bool:
     return len({(t.n, t.l, abs(t.m), t.centre_a0) for t in state.terms}) == 1
 
 
-def _draw_one_shell(state: State, count: int, rng: np.random.Generator, seed: int | None) -> Cloud:
+def _draw_one_shell(state: State, count: int, rng: np.random.Generator, seed: int) -> Cloud:
     """r and cos(theta) by inverse CDF, phi by rejection from uniform with the tight bound
     of g(phi) = |a_+ e^{i|m|phi} + a_- e^{-i|m|phi}|^2 <= (|a_+| + |a_-|)^2 (2 for a real
     orbital, 1 for an eigenstate, where every phi is kept).  Y_l^{-m} = (-1)^m conj(Y_l^m)
@@ -198,7 +198,8 @@ def draw_cloud(state: State, count: int, *, seed: int | None = None) -> Cloud:
     count : int
         Points to keep, 1 to :data:`MAX_POINTS`.
     seed : int, optional
-        Seed of ``numpy.random.Generator(PCG64(seed))``; None draws fresh entropy.
+        Seed (>= 0) of ``numpy.random.Generator(PCG64(seed))``.  None takes one from the
+        operating system's entropy and records it in the Cloud, so any run can be repeated.
 
     Returns
     -------
@@ -223,6 +224,11 @@ def draw_cloud(state: State, count: int, *, seed: int | None = None) -> Cloud:
                          f"got {count}")
     count = int(count)
     require_bytes(cloud_bytes(state, count), f"a cloud of {count} points")
+    if seed is None:
+        seed = int(np.random.SeedSequence().entropy)
+    if isinstance(seed, bool) or int(seed) != seed or seed < 0:
+        raise ValueError(f"the seed must be a whole number >= 0, got {seed}")
+    seed = int(seed)
     rng = np.random.Generator(np.random.PCG64(seed))
     if _one_shell(state):
         return _draw_one_shell(state, count, rng, seed)
