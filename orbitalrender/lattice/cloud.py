@@ -32,7 +32,6 @@ from dataclasses import dataclass
 from functools import cache
 
 import numpy as np
-from scipy.interpolate import PchipInterpolator
 
 from ..state.hydrogen import psi_nlm_xyz, radial_function, spherical_harmonic_xyz
 from ..state.model import State
@@ -57,8 +56,11 @@ _BYTES_PER_PROPOSAL = 160
 MAX_POINTS = 50_000_000
 
 
-def _inverse_cdf(pdf, a: float, b: float) -> PchipInterpolator:
-    """Inverse CDF of the density `pdf` (vectorised, any scale) on [a, b]."""
+def _inverse_cdf(pdf, a: float, b: float):
+    """Inverse CDF (a scipy PchipInterpolator) of the density `pdf` (vectorised, any
+    scale) on [a, b]."""
+    from scipy.interpolate import PchipInterpolator  # here: option modules import this one
+
     edges = np.linspace(a, b, _PANELS + 1)
     half = 0.5 * np.diff(edges)
     nodes = (0.5 * (edges[1:] + edges[:-1]))[:, None] + half[:, None] * _GL_X[None, :]
@@ -69,7 +71,7 @@ def _inverse_cdf(pdf, a: float, b: float) -> PchipInterpolator:
 
 
 @cache
-def _radial_table(n: int, l: int) -> PchipInterpolator:
+def _radial_table(n: int, l: int):
     """Inverse CDF of r^2 R_nl(r)^2 for Z = 1 and an infinitely heavy nucleus (r in a0)."""
     # The density falls like r^(2n) e^(-2r/n); double the reach until the tail is tiny.
     reach = float(n * n)
@@ -83,7 +85,7 @@ def _radial_table(n: int, l: int) -> PchipInterpolator:
 
 
 @cache
-def _polar_table(l: int, am: int) -> PchipInterpolator:
+def _polar_table(l: int, am: int):
     """Inverse CDF of |Y_l^m(cos theta)|^2 in t = cos(theta) on [-1, 1] (same for +-m)."""
 
     def pdf(t):
