@@ -17,7 +17,7 @@ Three schemes, all of our own construction:
     still distinguishable under the common red-green colour-vision deficiencies.
 ``"sign"``
     Two tones for real states: one for psi > 0, one for psi < 0 (after removing
-    the state's global phase, see :func:`real_rotation`).
+    the state's global phase, see :mod:`orbitalrender.state.phase`).
 
 References
 ----------
@@ -38,7 +38,6 @@ __all__ = [
     "phase_lut",
     "phase_to_rgb",
     "psi_to_rgb",
-    "real_rotation",
     "sign_colours",
     "srgb_to_linear",
     "linear_to_srgb",
@@ -170,38 +169,13 @@ def phase_to_rgb(phase_rad: np.ndarray, scheme: str = "uniform") -> np.ndarray:
     return (1.0 - frac) * lut[i0] + frac * lut[(i0 + 1) % LUT_SIZE]
 
 
-def real_rotation(psi: np.ndarray) -> complex:
-    """Unit phasor u such that psi * conj(u) is as real as possible (largest sum of Re^2).
-
-    For a real orbital multiplied by any global phase this recovers that phase
-    (up to a sign, fixed so the value of largest magnitude comes out positive).
-
-    Examples
-    --------
-    >>> import numpy as np
-    >>> psi = np.array([1.0, -2.0, 0.5]) * np.exp(0.7j)
-    >>> u = real_rotation(psi)
-    >>> bool(np.allclose((psi * np.conj(u)).imag, 0))
-    True
-    """
-    psi = np.asarray(psi, dtype=complex).ravel()
-    s = np.sum(psi * psi)
-    if abs(s) == 0:
-        return 1.0 + 0.0j
-    u = np.exp(0.5j * np.angle(s))
-    k = int(np.argmax(np.abs(psi)))
-    if (psi[k] * np.conj(u)).real < 0:
-        u = -u
-    return complex(u)
-
-
-def psi_to_rgb(psi: np.ndarray, scheme: str = "uniform", rotation: complex | None = None) -> np.ndarray:
-    """Colours for complex psi values: hue from arg psi (``"sign"``: from the sign after
-    removing `rotation`, by default :func:`real_rotation` of these values)."""
+def psi_to_rgb(psi: np.ndarray, scheme: str = "uniform", rotation: complex = 1.0 + 0.0j) -> np.ndarray:
+    """Colours for complex psi values: hue from arg psi (``"sign"``: from the sign of
+    psi * conj(`rotation`), the global phase removed by
+    :func:`orbitalrender.state.phase.sign_rotation`)."""
     psi = np.asarray(psi, dtype=complex)
     if scheme == "sign":
-        u = real_rotation(psi) if rotation is None else rotation
-        return phase_to_rgb(np.angle(psi * np.conj(u)), "sign")
+        return phase_to_rgb(np.angle(psi * np.conj(rotation)), "sign")
     return phase_to_rgb(np.angle(psi), scheme)
 
 

@@ -30,6 +30,7 @@ from ..mesh.print_options import (
     PrintOptions,
 )
 from ..picture.output import write_report
+from ..state.phase import is_real
 from ..state.units import LENGTH_UNITS_PER_A0
 from .common import add_lattice_arguments, add_state_arguments, box_from_args, lattice_dtype, state_from_args
 
@@ -110,7 +111,7 @@ def run(args: argparse.Namespace) -> int:
     if args.printable or args.parts:
         options = PrintOptions(args.min_thickness_mm, args.min_gap_mm, args.strut_fraction,
                                "none" if args.cutaway else args.base, args.cutaway)
-    if args.split == "sign" and not state.is_real:
+    if args.split == "sign" and not is_real(state):
         raise UserInputError("--split sign needs a real state (psi real up to one global phase); "
                              "use --split phase for a complex state")
     from ..surface.extract import sample_for_surface, surface_at_level  # the surface step

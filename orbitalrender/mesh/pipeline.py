@@ -101,9 +101,6 @@ def export_mesh(surface: Surface, path: str | os.PathLike, *, units: str = "a0",
     if split and (printable is not None or parts):
         raise UserInputError("a split writes bodies for multi-material printing and cannot be "
                              "combined with a printable model or parts")
-    if split == "sign" and surface.state is not None and not surface.state.is_real:
-        raise UserInputError("a sign split needs a real state (psi real up to one global phase); "
-                             "split by phase for a complex state")
     if split == "phase" and lattice is None:
         raise UserInputError("a phase split needs the lattice the surface came from")
     factor, unit = length_scale(surface.vertices_a0, units, size_mm)
@@ -141,7 +138,7 @@ def export_mesh(surface: Surface, path: str | os.PathLike, *, units: str = "a0",
         }
     elif split:
         if split == "sign":
-            named = split_by_sign(mesh, surface.psi)
+            named = split_by_sign(mesh, surface.psi, state=surface.state)
         else:
             named = {f"band{k + 1}": surface_mesh(b, factor, phase_map)
                      for k, b in enumerate(phase_band_surfaces(lattice, surface.level, bands))}

@@ -12,9 +12,10 @@ import math
 import numpy as np
 import trimesh
 
-from ..colormap import real_rotation
 from ..errors import UserInputError
 from ..lattice.grid import Lattice
+from ..state.model import State
+from ..state.phase import sign_rotation
 from ..surface.extract import _interpolated_psi, _march, _touches_boundary, vertex_normals
 from ..surface.model import Surface
 from .bodies import face_components, submesh
@@ -22,24 +23,30 @@ from .bodies import face_components, submesh
 __all__ = ["split_by_sign", "phase_band_surfaces"]
 
 
-def split_by_sign(mesh: trimesh.Trimesh, psi: np.ndarray) -> dict[str, trimesh.Trimesh]:
+def split_by_sign(mesh: trimesh.Trimesh, psi: np.ndarray, *,
+                  state: State | None = None) -> dict[str, trimesh.Trimesh]:
     """Bodies of a real state's surface by the sign of psi: ``{"positive": ..., "negative": ...}``.
 
     Each closed component has one sign (psi cannot change sign on a connected piece of
     {|psi|^2 >= level} without passing through zero); the global phase is removed
-    first with :func:`~orbitalrender.colormap.real_rotation`, taken with a
-    non-negative real part so that a psi that is real as given keeps its own sign.
-    A sign with no component is left out.
+    first by the one rule of :func:`orbitalrender.state.phase.sign_rotation`, so the
+    sign agrees with the sign map of figures, sections and vertex colours.  A sign with
+    no component is left out.
 
     Parameters
     ----------
     mesh : trimesh.Trimesh
         The surface mesh, vertices in the same order as `psi`.
     psi : ndarray, complex, (V,)
+    state : State, optional
+        The analytic state of the surface (None: judge `psi` itself).
+
+    Raises
+    ------
+    ValueError
+        When psi is complex (not real up to one global phase).
     """
-    u = real_rotation(psi)
-    if u.real < 0 or (u.real == 0 and u.imag < 0):  # psi = +-|psi| as given keeps its own sign
-        u = -u
+    u = sign_rotation(state, psi, what="a sign split", instead="split by phase")
     real = (np.asarray(psi) * np.conj(u)).real
     groups: dict[str, list[np.ndarray]] = {"positive": [], "negative": []}
     for faces in face_components(mesh):

@@ -124,7 +124,7 @@ def draw_sign_swatches(ax, title: str | None = r"sign of $\psi$", fontsize: floa
     """Draw the two tones of the sign scheme into `ax`, labelled + and −.
 
     The sign is that of psi after its global phase is removed
-    (:func:`orbitalrender.colormap.real_rotation`).
+    (:func:`orbitalrender.state.phase.sign_rotation`).
 
     Examples
     --------

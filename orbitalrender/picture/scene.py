@@ -34,8 +34,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..colormap import PHASE_SCHEMES, real_rotation, srgb_to_linear
+from ..colormap import PHASE_SCHEMES, srgb_to_linear
 from ..lattice.memory import GIB, MemoryLimitError, usable_bytes
+from ..state.phase import sign_rotation
 from ..surface.model import Surface
 from .axis import AXIS_RGB, axis_layer, axis_segment
 from .camera import DEFAULT_CAMERA, Camera, Projection, as_surfaces, frame_camera, pixel_projection
@@ -179,29 +180,6 @@ def require_render_memory(width_px: int, height_px: int, supersample: int = 3,
         f"{needed / GIB:.1f} GiB but only {budget / GIB:.1f} GiB can be used; {hint}")
 
 
-def _sign_rotation(surfaces: list[Surface]) -> complex:
-    """Global phase to remove before the sign map.
-
-    psi that is already real (a real orbital) keeps its own sign convention (u = 1).
-    Otherwise :func:`real_rotation` of psi on and inside the surfaces (between the
-    vertices and the image centre), where |psi| differs from point to point: on the
-    surface alone |psi| is the same everywhere and would not fix the sign.
-    """
-    psi = np.concatenate([s.psi for s in surfaces])
-    state = surfaces[0].state
-    if state is not None:
-        verts = np.concatenate([s.vertices_a0 for s in surfaces])
-        verts = verts[:: max(1, len(verts) // 2000)]
-        centre = 0.5 * (verts.min(axis=0) + verts.max(axis=0))
-        shrink = np.linspace(0.0, 1.0, 9)[:, None, None]
-        points = (centre + shrink * (verts - centre)).reshape(-1, 3)
-        psi = state.psi(*points.T)
-    scale = float(np.max(np.abs(psi))) if len(psi) else 0.0
-    if scale == 0 or np.max(np.abs(psi.imag)) <= 1e-9 * scale:
-        return 1.0 + 0.0j
-    return real_rotation(psi)
-
-
 def _unit(v) -> np.ndarray:
     v = np.asarray(v, dtype=float)
     return v / np.linalg.norm(v, axis=-1, keepdims=True)
@@ -323,6 +301,8 @@ def render_surfaces(surfaces: Surface | Sequence[Surface], width_px: int = 800, 
     camera : Camera
         Unset target/half-extent are fitted to the surfaces (:func:`frame_camera`).
     phase_map : {"uniform", "cvd", "sign"}
+        ``"sign"`` removes the global phase of the (first) surface's state by the rule of
+        :func:`orbitalrender.state.phase.sign_rotation`; a complex state is refused.
     lighting : Lighting
     cutaway : Cutaway, optional
         Region removed; the cut is capped with psi evaluated at the cap.
@@ -378,7 +358,8 @@ def render_surfaces(surfaces: Surface | Sequence[Surface], width_px: int = 800, 
     segment = axis_segment(surfaces) if nodal_axis else None
     camera = frame_camera(surfaces, camera, width_px / height_px, segment)
     proj = pixel_projection(camera, width_px * ss, height_px * ss)
-    rotation = _sign_rotation(surfaces) if phase_map == "sign" else 1.0 + 0.0j
+    rotation = (sign_rotation(surfaces[0].state, np.concatenate([s.psi for s in surfaces]))
+                if phase_map == "sign" else 1.0 + 0.0j)
     planes = cutaway.world_planes(camera, camera.target_a0) if cutaway is not None else None
     if cap_psi is None and surfaces[0].state is not None:
         cap_psi = surfaces[0].state.psi

@@ -19,11 +19,11 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.ndimage import map_coordinates
 
-from ..colormap import real_rotation
 from ..lattice.grid import Lattice
 from ..lattice.memory import require_bytes
 from ..lattice.sampler import default_box
 from ..state.model import State
+from ..state.phase import nearest_real_rotation, real_rotation
 from ..surface.level import level_for_fraction
 from .plane import Plane, check_pixels
 
@@ -35,10 +35,6 @@ _CHUNK_POINTS = 1 << 20
 #: float64 RGB arrays of the colour lookup and shading (tracemalloc peak about 200 B at
 #: 1024 x 1024 px, drawing included; 320 leaves a margin).
 _BYTES_PER_PIXEL = 320
-#: psi counts as real on the plane (after one global phase) when its imaginary part is
-#: below this fraction of max |psi| everywhere: far above float64 round-off of psi and
-#: above the float32 round-off of a complex64 lattice (6e-8), far below any true phase.
-_REAL_TOLERANCE = 1e-5
 #: Magnitude of psi (a0^-3/2) in the region holding a state of principal number n is
 #: about (Z mu / n^2)^(3/2) (normalisation over a volume of about (n^2 / Z mu)^3); a plane
 #: whose largest |psi| is below this share of that is treated as a nodal plane.
@@ -105,23 +101,18 @@ class Section:
 
     @property
     def rotation(self) -> complex:
-        """Global phase u of the section: 1 when psi is already real here (real orbitals keep
-        their conventional sign), else :func:`real_rotation` of the finite values."""
-        finite = self.psi[np.isfinite(self.psi)]
-        if not finite.size or np.max(np.abs(finite.imag)) <= _REAL_TOLERANCE * np.max(np.abs(finite)):
-            return 1.0 + 0.0j
-        return real_rotation(finite)
+        """The global phase u that makes psi on this plane as real as it can be
+        (:func:`orbitalrender.state.phase.nearest_real_rotation`); the nodal lines are
+        traced on psi * conj(u)."""
+        return nearest_real_rotation(self.psi)
 
     @property
     def signed(self) -> np.ndarray | None:
-        """The real field psi * conj(rotation) when psi is real on the plane up to one
-        global phase (real states; eigenstates on planes containing z), else None."""
-        rotated = self.psi * np.conj(self.rotation)
-        finite = np.isfinite(rotated)
-        peak = float(np.max(np.abs(rotated[finite]))) if finite.any() else 0.0
-        if peak == 0.0 or np.max(np.abs(rotated.imag[finite])) <= _REAL_TOLERANCE * peak:
-            return rotated.real
-        return None
+        """The real field psi * conj(u) when psi on this plane is real up to one global phase
+        u (:func:`orbitalrender.state.phase.real_rotation`: real states, and eigenstates on
+        planes containing z), else None."""
+        u = real_rotation(self.psi)
+        return None if u is None else (self.psi * np.conj(u)).real
 
     @property
     def is_nodal_plane(self) -> bool:

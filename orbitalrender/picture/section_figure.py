@@ -27,6 +27,7 @@ from matplotlib.lines import Line2D
 
 from ..colormap import PHASE_SCHEMES, phase_to_rgb
 from ..state.notation import pretty_label
+from ..state.phase import sign_rotation
 from ..state.units import a0_to, unit_label
 from .density import density_weight, shade
 from .legend import draw_phase_legend
@@ -43,10 +44,7 @@ _NEUTRAL = (0.68, 0.68, 0.68)
 
 def _section_rgb(section: Section, scheme: str, scale: str, decades: float) -> np.ndarray:
     if scheme == "sign":
-        signed = section.signed
-        if signed is None:
-            raise ValueError("the sign map needs psi real on the plane (up to one global phase); "
-                             "this section is complex: use the uniform or cvd map")
+        signed = (section.psi * np.conj(sign_rotation(section.state, section.psi))).real
         rgb = phase_to_rgb(np.where(signed < 0, np.pi, 0.0), "sign")
     elif scheme in PHASE_SCHEMES:
         rgb = phase_to_rgb(np.angle(np.nan_to_num(section.psi)), scheme)
@@ -88,7 +86,7 @@ def draw_section(ax, section: Section, lines: SectionLines, *, scheme: str = "un
     lines : SectionLines
         The section's lines (:func:`orbitalrender.picture.nodal.section_lines`).
     scheme : {"uniform", "cvd", "sign"}
-        Phase map; ``"sign"`` only where psi is real on the plane.
+        Phase map; ``"sign"`` only for a real state or field (a complex one is refused).
     scale : {"linear", "log"}
         Opacity from |psi|^2 / max, linear or logarithmic over `decades`.
     decades : float
