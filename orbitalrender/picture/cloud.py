@@ -18,10 +18,12 @@ from collections.abc import Mapping
 
 import numpy as np
 
-from ..colormap import PHASE_SCHEMES, linear_to_srgb, psi_to_rgb, real_rotation, srgb_to_linear
+from ..colormap import PHASE_SCHEMES, linear_to_srgb, psi_to_rgb, srgb_to_linear
 from ..lattice.cloud import Cloud, Slab
 from ..lattice.memory import require_bytes
+from ..state.model import State
 from ..state.notation import pretty_label
+from ..state.phase import sign_rotation
 from ..surface.level import level_for_fraction
 from ..surface.model import Surface
 from .camera import DEFAULT_CAMERA, Camera, frame_camera, pixel_projection
@@ -56,10 +58,11 @@ def _footprint() -> np.ndarray:
     return np.stack([dy[inside], dx[inside]], axis=1)
 
 
-def point_colours(psi: np.ndarray, phase_map: str = "uniform") -> np.ndarray:
-    """sRGB colours (N, 3) of the points from arg psi (the ``"sign"`` map after removing
-    the global phase of the points' psi), the same maps as the surfaces."""
-    rotation = real_rotation(psi) if phase_map == "sign" else None
+def point_colours(psi: np.ndarray, phase_map: str = "uniform", state: State | None = None) -> np.ndarray:
+    """sRGB colours (N, 3) of the points from arg psi, with the same maps as the surfaces;
+    the ``"sign"`` map reads the sign after the one rule of
+    :func:`orbitalrender.state.phase.sign_rotation` for `state` (a complex state is refused)."""
+    rotation = sign_rotation(state, psi) if phase_map == "sign" else 1.0 + 0.0j
     return psi_to_rgb(psi, phase_map, rotation)
 
 
@@ -117,7 +120,7 @@ def render_cloud(cloud: Cloud, width_px: int = 800, height_px: int = 800, *,
                   f"a {width_px} x {height_px} px picture of {cloud.count} points")
     camera = frame_camera([], camera, width_px / height_px, _fit_points(cloud.points_a0))
     points, psi = cloud.points_a0, cloud.psi
-    colours = srgb_to_linear(point_colours(psi, phase_map))
+    colours = srgb_to_linear(point_colours(psi, phase_map, cloud.state))
     if slab is not None:
         inside = slab.contains(points)
         points, colours = points[inside], colours[inside]
