@@ -60,6 +60,9 @@ _EXPORTS: dict[str, str] = {
     "LevelResult": "surface.level", "level_for_fraction": "surface.level",
     "Surface": "surface.model",
     "Topology": "surface.topology", "split_components": "surface.topology", "topology": "surface.topology",
+    **dict.fromkeys(("FigureOptions", "LayoutOptions", "SectionOptions", "RadialOptions", "MeshOptions",
+                     "DescribeOptions", "figure_job", "section_job", "radial_job", "mesh_job",
+                     "describe_job"), "jobs"),
 }
 
 
@@ -93,4 +96,6 @@ __all__ = [
     "render_cloud", "cloud_figure", "cloud_report",
     "Camera", "render_surfaces", "figure_3d", "small_multiples", "time_strip", "shell_states",
     "load_config", "run_gallery",
+    "FigureOptions", "LayoutOptions", "SectionOptions", "RadialOptions", "MeshOptions", "DescribeOptions",
+    "figure_job", "section_job", "radial_job", "mesh_job", "describe_job",
 ]
