@@ -14,7 +14,7 @@ from dataclasses import dataclass
 from typing import Any, ClassVar
 
 from ..picture.camera import PROJECTIONS
-from .option import option
+from .option import Options, option
 from .shared import (
     FRACTION,
     FRACTION_HELP,
@@ -28,8 +28,8 @@ from .shared import (
     surface_of,
 )
 
-__all__ = ["FigureOptions", "LayoutOptions", "PROJECTIONS", "SIZE_RANGE_PX", "FIGURE_SIZE_PX", "PANEL_PX",
-           "parse_size", "figure_job", "picture_size", "view_record"]
+__all__ = ["ViewOptions", "FigureOptions", "LayoutOptions", "PROJECTIONS", "SIZE_RANGE_PX", "FIGURE_SIZE_PX",
+           "PANEL_PX", "parse_size", "figure_job", "picture_size", "view_record"]
 
 #: Sides of a picture accepted, px: below 64 the legend and title do not fit; above 8192 one
 #: supersampled render needs gigabytes.
@@ -61,15 +61,10 @@ def _camera(zoom: float) -> None:
 
 
 @dataclass(frozen=True)
-class FigureOptions(FileOptions, PictureOptions, LatticeOptions, FieldOptions, StateOptions):
-    """Options of one 3D picture (gallery kind ``figure``)."""
+class ViewOptions(Options):
+    """How a 3D scene is seen and framed: size, camera, phase map and legend (figures and clouds)."""
 
-    STATE_NARGS: ClassVar[str] = "?"
-    states: tuple[str, ...] = ()
-    fraction: float = option(FRACTION, FRACTION_HELP, lo=0, hi=1, lo_open=True, hi_open=True,
-                             metavar="F")
     dpi: float = option(100.0, "dots per inch of the figure", lo=10.0, hi=2400.0)
-    title: str | None = option(None, "title of a single picture (default: state and F)", type="text")
     width_px: int | None = option(
         None, f"size of the whole figure in pixels (default {FIGURE_SIZE_PX[0]}x{FIGURE_SIZE_PX[1]} for "
               f"one picture; panels of about {PANEL_PX} px for a grid or time strip)",
@@ -81,13 +76,24 @@ class FigureOptions(FileOptions, PictureOptions, LatticeOptions, FieldOptions, S
                                 flag="--azimuth", metavar="DEG")
     elevation_deg: float = option(20.0, "viewing direction above the xy plane", lo=-90, hi=90,
                                   unit="deg", flag="--elevation", metavar="DEG")
-    zoom: float = option(1.0, "1 fits the surface; 2 is twice as large", lo=0, lo_open=True,
-                         check=_camera)
+    zoom: float = option(1.0, "1 fits the surface (or the cloud); 2 is twice as large", lo=0,
+                         lo_open=True, check=_camera)
     projection: str = option("orthographic", "orthographic (lengths true to the scale bar) or perspective",
                              type="text", choices=PROJECTIONS)
     phase_map: str = option("uniform", "uniform (constant lightness), cvd (red-green safe) or sign "
                             "(real states)", type="text", choices=PHASE_MAPS)
     legend: bool = option(True, "leave out the phase legend and scale bar", type="bool")
+
+
+@dataclass(frozen=True)
+class FigureOptions(ViewOptions, FileOptions, PictureOptions, LatticeOptions, FieldOptions, StateOptions):
+    """Options of one 3D picture (gallery kind ``figure``)."""
+
+    STATE_NARGS: ClassVar[str] = "?"
+    states: tuple[str, ...] = ()
+    fraction: float = option(FRACTION, FRACTION_HELP, lo=0, hi=1, lo_open=True, hi_open=True,
+                             metavar="F")
+    title: str | None = option(None, "title of a single picture (default: state and F)", type="text")
     supersample: int = option(3, "antialiasing: K x K samples per pixel", type="integer", lo=1, hi=4,
                               metavar="K")
     cutaway: str | None = option(

@@ -52,6 +52,8 @@ _BYTES_PER_POINT = 40
 #: and float temporaries), plus the coordinates; an upper bound of what numpy allocates.
 _BYTES_PER_PROPOSAL_TERM = 64
 _BYTES_PER_PROPOSAL = 160
+#: Seeds drawn for the caller stay below 2^63, so they can be given back as an option.
+_SEED_LIMIT = 2**63
 #: Most points one call may ask for (a PLY of this many points is 1.2 GB).
 MAX_POINTS = 50_000_000
 
@@ -227,7 +229,7 @@ def draw_cloud(state: State, count: int, *, seed: int | None = None) -> Cloud:
     count = int(count)
     require_bytes(cloud_bytes(state, count), f"a cloud of {count} points")
     if seed is None:
-        seed = int(np.random.SeedSequence().entropy)
+        seed = int(np.random.SeedSequence().entropy) % _SEED_LIMIT
     if isinstance(seed, bool) or int(seed) != seed or seed < 0:
         raise ValueError(f"the seed must be a whole number >= 0, got {seed}")
     seed = int(seed)

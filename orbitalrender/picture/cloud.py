@@ -30,7 +30,8 @@ from .camera import DEFAULT_CAMERA, Camera, frame_camera, pixel_projection
 from .compose import compose_figure, fit_geometry
 from .scene import Render, render_surfaces
 
-__all__ = ["render_cloud", "cloud_figure", "cloud_report", "cloud_title", "point_colours"]
+__all__ = ["render_cloud", "cloud_figure", "cloud_report", "cloud_title", "point_colours",
+           "picture_bytes"]
 
 #: Samples per pixel side of the dot raster.
 _SUPERSAMPLE = 3
@@ -45,10 +46,11 @@ _SURFACE_OPACITY = 0.25
 #: Share of points left out at each end, per axis, when the camera is fitted to the cloud
 #: (a million points reach far into the tail; the picture shows the bulk).
 _FIT_TAIL = 0.002
-#: Bytes per point of the raster (indices and weights of the dot footprint) and per
-#: supersampled pixel (counts and colour sums).
-_BYTES_PER_POINT_SAMPLE = 40
-_BYTES_PER_PIXEL_SAMPLE = 48
+#: Bytes per point of the raster (projected position, linear colour, and the pixel index,
+#: mask and weights of one footprint offset at a time; an upper bound of the numpy
+#: temporaries) and per supersampled pixel (count, colour sums and the composite).
+_BYTES_PER_POINT = 128
+_BYTES_PER_PIXEL_SAMPLE = 96
 
 
 def _footprint() -> np.ndarray:
@@ -64,6 +66,12 @@ def point_colours(psi: np.ndarray, phase_map: str = "uniform", state: State | No
     :func:`orbitalrender.state.phase.sign_rotation` for `state` (a complex state is refused)."""
     rotation = sign_rotation(state, psi) if phase_map == "sign" else 1.0 + 0.0j
     return psi_to_rgb(psi, phase_map, rotation)
+
+
+def picture_bytes(count: int, width_px: int, height_px: int) -> int:
+    """Peak bytes of :func:`render_cloud` for `count` points on a `width_px` x `height_px` image
+    (the cloud itself not included)."""
+    return int(count * _BYTES_PER_POINT + width_px * height_px * _SUPERSAMPLE**2 * _BYTES_PER_PIXEL_SAMPLE)
 
 
 def _fit_points(points: np.ndarray) -> np.ndarray:
@@ -115,8 +123,7 @@ def render_cloud(cloud: Cloud, width_px: int = 800, height_px: int = 800, *,
         raise ValueError(f"unknown phase map {phase_map!r}: use one of {', '.join(PHASE_SCHEMES)}")
     ss = _SUPERSAMPLE
     foot = _footprint()
-    require_bytes(cloud.count * len(foot) * _BYTES_PER_POINT_SAMPLE
-                  + width_px * height_px * ss * ss * _BYTES_PER_PIXEL_SAMPLE,
+    require_bytes(picture_bytes(cloud.count, width_px, height_px),
                   f"a {width_px} x {height_px} px picture of {cloud.count} points")
     camera = frame_camera([], camera, width_px / height_px, _fit_points(cloud.points_a0))
     points, psi = cloud.points_a0, cloud.psi
