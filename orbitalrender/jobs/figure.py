@@ -198,7 +198,9 @@ def figure_job(states: Sequence, options: FigureOptions, *,
                   supersample=options.supersample)
     compose = dict(dpi=options.dpi, units=options.units, legend=options.legend,
                    scale_bar=options.legend, transparent=options.transparent)
-    surfaces = [surface(s) for s in states]
+    # a hybrid set (a tuple of members) is one panel of several surfaces in one scene
+    groups = [[surface(m) for m in s] if isinstance(s, tuple) else [surface(s)] for s in states]
+    surfaces = [g[0] for g in groups]
     strip = times_au is not None
     ncols = (len(surfaces) if strip else
              getattr(options, "columns", None) or default_columns(len(surfaces)))
@@ -207,6 +209,13 @@ def figure_job(states: Sequence, options: FigureOptions, *,
         size = fit_size(*size)
     first = surfaces[0]
     common = dict(command="figure", view=view_record(options, size))
+    if len(surfaces) == 1 and not strip and len(groups[0]) > 1:
+        fig, rendered = figure_3d(groups[0], *size, title=options.title or _set_title(groups[0]),
+                                  **compose, **render)
+        md = figure_metadata(None, first.fraction_requested, None, first.lattice_shape[0],
+                             panels=[_panel_record(s) for s in groups[0]], px_per_a0=rendered.px_per_a0,
+                             **common)
+        return fig, md
     if len(surfaces) == 1 and not strip:
         fig, rendered = figure_3d(first, *size, title=options.title, **compose, **render)
         source = {} if first.state is not None else {"source": options.field}
@@ -216,14 +225,24 @@ def figure_job(states: Sequence, options: FigureOptions, *,
         return fig, md
     unit = options.time_unit
     titles = ([f"t = {t:g} {unit}" for t in options.times] if strip else
-              [surface_title(s) for s in surfaces])
-    fig, renders = small_multiples(surfaces, titles, ncols, *size, shared_target=strip, **compose, **render)
+              [_set_title(g) if len(g) > 1 else surface_title(g[0]) for g in groups])
+    fig, renders = small_multiples(groups, titles, ncols, *size, shared_target=strip, **compose, **render)
     if strip:
         md = figure_metadata(first.state.at_time(0.0), first.fraction_requested, None,
                              first.lattice_shape[0], times_au=[s.state.time_au for s in surfaces],
                              px_per_a0=renders[0].px_per_a0, **common)
     else:
         md = figure_metadata(None, first.fraction_requested, None, first.lattice_shape[0],
-                             panels=[_panel_record(s) for s in surfaces], px_per_a0=renders[0].px_per_a0,
-                             **common)
+                             panels=[_panel_record(s) for g in groups for s in g],
+                             px_per_a0=renders[0].px_per_a0, **common)
     return fig, md
+
+
+def _set_title(group) -> str:
+    """Title of a hybrid set drawn together: the set's name (members' labels without [k]) and F."""
+    import re
+
+    from ..state.notation import pretty_label
+
+    name = re.sub(r"\[\d+\]$", "", group[0].state.label)
+    return f"{pretty_label(name)}, F = {group[0].fraction_requested:g}"
