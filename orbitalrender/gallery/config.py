@@ -27,6 +27,7 @@ from typing import Any
 
 from ..errors import UserInputError
 from ..jobs import KINDS as JOB_OPTIONS
+from ..jobs.cloud import CLOUD_SUFFIXES, check_cloud
 from ..jobs.mesh import MESH_SUFFIXES, check_mesh
 from ..jobs.option import Option, OptionError, build, convert, expected_text, key_of, options_of, shown
 from ..state.model import State
@@ -41,6 +42,7 @@ KINDS: dict[str, tuple[str, ...]] = {
     "section": (".png", ".svg", ".pdf"),
     "radial": (".png", ".svg", ".pdf"),
     "mesh": MESH_SUFFIXES,
+    "cloud": CLOUD_SUFFIXES,
 }
 _FIELD_KINDS = ("figure", "section", "mesh")
 
@@ -315,6 +317,17 @@ def _check_together(opts: dict, kind: str, file: str, states: tuple[State, ...],
             check_mesh(job_options("mesh", opts), file, lambda k: f"'{k}'",
                        state=states[0] if states else None, one_file=True)
         except UserInputError as exc:
+            raise ConfigError(f"{_where(path, table, None)}: {exc}") from None
+    if opts.get("phase_map") == "sign":
+        from ..state.phase import is_real
+
+        if not all(is_real(s) for s in states):
+            raise bad("phase_map", "cannot be 'sign' for a complex state (psi not real up to one "
+                                   "global phase): use 'uniform' or 'cvd'")
+    if kind == "cloud":
+        try:
+            check_cloud(job_options("cloud", opts), file, states[0] if states else None)
+        except (UserInputError, ValueError) as exc:
             raise ConfigError(f"{_where(path, table, None)}: {exc}") from None
     if kind == "figure" and opts.get("nodal_axis") and states:
         st = states[0]

@@ -41,7 +41,7 @@ class CloudOptions(ViewOptions, FileOptions, PictureOptions, LatticeOptions, Sta
                          lo=1, hi=MAX_POINTS, metavar="N")
     seed: int | None = option(None, "seed of the random generator (numpy PCG64); the same seed gives "
                               "the same file (default: a fresh seed, recorded in the report)",
-                              type="integer", lo=0, hi=2**63 - 1, metavar="S")
+                              type="integer", lo=0, metavar="S")
     fraction: float = option(FRACTION, "F of the surface that the report counts the points inside of "
                              "(and that --surface draws)", lo=0, hi=1, lo_open=True, hi_open=True,
                              metavar="F")
