@@ -40,7 +40,7 @@ def test_same_seed_same_bytes_and_an_honest_report(tmp_path):
     (["sp3"], "pick one member"),
     (["sp3[9]"], "members [1] to [4]"),
     (["1s", "--out", "x.xyz"], "cannot tell the format"),
-    (["1s", "--slab", "z=0,1", "--out", "x.ply"], "PLY point cloud"),
+    (["1s", "--slab", "z=0,1", "--out", "x.ply"], "PLY point cloud holds every point"),
 ])
 def test_bad_input_is_one_line_status_2_and_no_file(tmp_path, args, words):
     out = [] if "--out" in args else ["--out", "x.png"]

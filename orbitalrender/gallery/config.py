@@ -177,7 +177,7 @@ SCHEMA: dict[str, Key] = {k.name: k for k in [
     _K("file", _ALL, _file, "a relative file name inside the output folder", output_only=True),
     _K("caption", _ALL, _text, "a string"),
     # the state
-    _K("state", ("figure", "section", "mesh", "layout"), _state_text, "a STATE string, e.g. '3dz2'"),
+    _K("state", ("figure", "section", "mesh", "layout", "cloud"), _state_text, "a STATE string, e.g. '3dz2'"),
     _K("states", ("radial", "layout"), _state_list, "a non-empty list of STATE strings"),
     # every option of the jobs
     *_option_keys(),

@@ -61,7 +61,8 @@ def check_cloud(options: CloudOptions, file: str | Path, state=None) -> None:
         raise UserInputError(f"cannot tell the format of {str(file)!r}: a cloud is written as "
                              + ", ".join(CLOUD_SUFFIXES))
     if suffix == ".ply" and (options.slab or options.surface):
-        raise UserInputError("a PLY point cloud holds every point; --slab and --surface are for pictures")
+        raise UserInputError("a PLY point cloud holds every point: a slab and the faint surface are for "
+                             "pictures (.png, .svg, .pdf)")
     if state is None:
         return
     from ..lattice.cloud import cloud_bytes, parse_slab
