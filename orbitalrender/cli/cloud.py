@@ -20,15 +20,15 @@ __all__ = ["register", "run"]
 
 
 def register(subparsers) -> None:
-    p = add_command(
+    add_command(
         subparsers, "cloud", CloudOptions, run,
         help="draw points exactly from |psi|^2: a dot picture coloured by phase, or a PLY point cloud",
         description="Draw --points points exactly from |psi|^2 of STATE (no box, no cut-off) and "
                     "write them as a picture of phase-coloured dots (.png, .svg, .pdf) or as a PLY "
                     "point cloud with per-point phase and density (.ply).  The report counts the "
                     "points inside the surface enclosing FRACTION.",
-        preload=("scipy.interpolate", "orbitalrender.picture.cloud", "orbitalrender.picture.output"))
-    next(a for a in p._actions if a.dest == "out").required = True
+        preload=("scipy.interpolate", "orbitalrender.picture.cloud", "orbitalrender.picture.output"),
+        out_required=True)
 
 
 def run(options: CloudOptions, args: argparse.Namespace) -> int:
