@@ -31,6 +31,7 @@ from ..jobs.cloud import CLOUD_SUFFIXES, check_cloud
 from ..jobs.mesh import MESH_SUFFIXES, check_mesh
 from ..jobs.option import Option, OptionError, build, convert, expected_text, key_of, options_of, shown
 from ..state.model import State
+from ..state.phase import is_real
 
 __all__ = ["KINDS", "SCHEMA", "TOP_KEYS", "ConfigError", "OutputSpec", "GalleryConfig",
            "load_config", "parse_config", "job_options", "Key"]
@@ -318,12 +319,9 @@ def _check_together(opts: dict, kind: str, file: str, states: tuple[State, ...],
                        state=states[0] if states else None, one_file=True)
         except UserInputError as exc:
             raise ConfigError(f"{_where(path, table, None)}: {exc}") from None
-    if opts.get("phase_map") == "sign":
-        from ..state.phase import is_real
-
-        if not all(is_real(s) for s in states):
-            raise bad("phase_map", "cannot be 'sign' for a complex state (psi not real up to one "
-                                   "global phase): use 'uniform' or 'cvd'")
+    if opts.get("phase_map") == "sign" and not all(is_real(s) for s in states):
+        raise bad("phase_map", "cannot be 'sign' for a complex state (psi not real up to one "
+                               "global phase): use 'uniform' or 'cvd'")
     if kind == "cloud":
         try:
             check_cloud(job_options("cloud", opts), file, states[0] if states else None)

@@ -128,17 +128,18 @@ class LayoutOptions(FigureOptions):
                            lo=64, hi=4096, unit="px")
 
 
-def picture_size(options: FigureOptions, count: int, ncols: int, strip: bool = False) -> tuple[int, int]:
-    """(width, height) in px of a figure of `count` panels in `ncols` columns (`strip`: a time strip)."""
+def picture_size(options: FigureOptions, count: int, ncols: int, panels: bool = False) -> tuple[int, int]:
+    """(width, height) in px of a figure of `count` panels in `ncols` columns (`panels`: drawn as
+    panels even if there is one)."""
     if options.width_px is not None and options.height_px is not None:
         return options.width_px, options.height_px
-    if count == 1 and not strip:
+    if count == 1 and not panels:
         return (options.width_px or FIGURE_SIZE_PX[0], options.height_px or FIGURE_SIZE_PX[1])
     from ..picture.compose import fit_geometry
 
     panel = getattr(options, "panel_px", PANEL_PX)
     nrows = -(-count // ncols)
-    probe = fit_geometry(10 * panel, panel + 30, 1, 1, True, True, options.dpi)
+    probe = fit_geometry(10 * panel, panel + 30, dpi=options.dpi)
     return (options.width_px or ncols * panel + probe.legend_px,
             options.height_px or nrows * (panel + probe.title_px))
 
@@ -160,7 +161,8 @@ def _panel_record(surface) -> dict[str, Any]:
 def figure_job(states: Sequence, options: FigureOptions, *,
                surface_for: Callable[[Any], Any] | None = None,
                times_au: Sequence[float] | None = None,
-               fit_size: Callable[[int, int], tuple[int, int]] | None = None) -> tuple[Any, dict[str, Any]]:
+               fit_size: Callable[[int, int], tuple[int, int]] | None = None,
+               panels: bool | None = None) -> tuple[Any, dict[str, Any]]:
     """Draw the surfaces of `states` as one picture, a grid or a time strip.
 
     Parameters
@@ -176,6 +178,9 @@ def figure_job(states: Sequence, options: FigureOptions, *,
     fit_size : callable, optional
         ``fit_size(width_px, height_px) -> (width_px, height_px)`` applied to the picture
         size (a gallery's draft cap).
+    panels : bool, optional
+        True: draw even one state as a panel of a layout; default: panels for several
+        states or a time strip, one picture for one state.
 
     Returns
     -------
@@ -204,19 +209,20 @@ def figure_job(states: Sequence, options: FigureOptions, *,
     strip = times_au is not None
     ncols = (len(surfaces) if strip else
              getattr(options, "columns", None) or default_columns(len(surfaces)))
-    size = picture_size(options, len(surfaces), ncols, strip)
+    single = len(surfaces) == 1 and not strip if panels is None else not panels
+    size = picture_size(options, len(surfaces), ncols, strip or not single)
     if fit_size is not None:
         size = fit_size(*size)
     first = surfaces[0]
     common = dict(command="figure", view=view_record(options, size))
-    if len(surfaces) == 1 and not strip and len(groups[0]) > 1:
+    if single and len(groups[0]) > 1:
         fig, rendered = figure_3d(groups[0], *size, title=options.title or _set_title(groups[0]),
                                   **compose, **render)
         md = figure_metadata(None, first.fraction_requested, None, first.lattice_shape[0],
                              panels=[_panel_record(s) for s in groups[0]], px_per_a0=rendered.px_per_a0,
                              **common)
         return fig, md
-    if len(surfaces) == 1 and not strip:
+    if single:
         fig, rendered = figure_3d(first, *size, title=options.title, **compose, **render)
         source = {} if first.state is not None else {"source": options.field}
         md = figure_metadata(first.state, first.fraction_requested, first.level, first.lattice_shape[0],
@@ -226,7 +232,8 @@ def figure_job(states: Sequence, options: FigureOptions, *,
     unit = options.time_unit
     titles = ([f"t = {t:g} {unit}" for t in options.times] if strip else
               [_set_title(g) if len(g) > 1 else surface_title(g[0]) for g in groups])
-    fig, renders = small_multiples(groups, titles, ncols, *size, shared_target=strip, **compose, **render)
+    fig, renders = small_multiples(groups, titles, ncols=ncols, width_px=size[0], height_px=size[1],
+                                   shared_target=strip, **compose, **render)
     if strip:
         md = figure_metadata(first.state.at_time(0.0), first.fraction_requested, None,
                              first.lattice_shape[0], times_au=[s.state.time_au for s in surfaces],

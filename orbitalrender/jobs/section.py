@@ -108,7 +108,8 @@ def section_job(source: Any, options: SectionOptions, *, label: str,
     from ..picture.section_figure import section_figure, section_metadata
 
     fraction = options.fraction if options.contour and level_for is None else None
-    section = cross_section(source, plane_of(options), options.extent_a0, options.pixels, fraction)
+    section = cross_section(source, plane_of(options), half_width_a0=options.extent_a0,
+                            pixels=options.pixels, fraction=fraction)
     if options.contour and level_for is not None:
         level = level_for()
         section = replace(section, level=level.level, fraction_requested=level.fraction_requested,
