@@ -203,6 +203,14 @@ def figure_job(states: Sequence, options: FigureOptions, *,
                   supersample=options.supersample)
     compose = dict(dpi=options.dpi, units=options.units, legend=options.legend,
                    scale_bar=options.legend, transparent=options.transparent)
+    if options.phase_map == "sign":  # refuse a complex state before its surfaces are made
+        from ..state.model import State
+        from ..state.phase import sign_rotation
+
+        for s in states:
+            for member in (s if isinstance(s, tuple) else (s,)):
+                if isinstance(member, State):
+                    sign_rotation(member)
     # a hybrid set (a tuple of members) is one panel of several surfaces in one scene
     groups = [[surface(m) for m in s] if isinstance(s, tuple) else [surface(s)] for s in states]
     surfaces = [g[0] for g in groups]
