@@ -133,3 +133,17 @@ def test_notation_forms_and_refusals():
         with pytest.raises(ValueError, match=r"\S") as err:
             orb.parse_state(text)
         assert words in str(err.value) and "\n" not in str(err.value)
+
+
+def test_figure_of_a_set_draws_every_member_in_one_scene(tmp_path):
+    import json
+
+    from orbitalrender.cli import main
+
+    out, rep = tmp_path / "sp.png", tmp_path / "sp.json"
+    assert main(["figure", "sp", "--resolution", "24", "--size", "240x200", "--supersample", "1",
+                 "--out", str(out), "--report", str(rep)]) == 0
+    panels = json.loads(rep.read_text())["panels"]
+    assert [p["state"] for p in panels] == ["sp[1]", "sp[2]"]
+    assert main(["mesh", "sp", "--out", str(tmp_path / "m.ply")]) == 2  # a set is refused
+    assert not (tmp_path / "m.ply").exists()
