@@ -125,7 +125,8 @@ def render_cloud(cloud: Cloud, width_px: int = 800, height_px: int = 800, *,
     foot = _footprint()
     require_bytes(picture_bytes(cloud.count, width_px, height_px),
                   f"a {width_px} x {height_px} px picture of {cloud.count} points")
-    camera = frame_camera([], camera, width_px / height_px, _fit_points(cloud.points_a0))
+    camera = frame_camera([], camera, aspect=width_px / height_px,
+                          extra_points_a0=_fit_points(cloud.points_a0))
     points, psi = cloud.points_a0, cloud.psi
     colours = srgb_to_linear(point_colours(psi, phase_map, cloud.state))
     if slab is not None:
@@ -212,11 +213,11 @@ def cloud_figure(cloud: Cloud, width_px: int = 900, height_px: int = 800, *, dpi
     """
     if title is None:
         title = cloud_title(cloud, render_options.get("slab"))
-    geometry = fit_geometry(width_px, height_px, 1, 1, bool(title), legend or scale_bar, dpi)
+    geometry = fit_geometry(width_px, height_px, titles=bool(title), legend=legend or scale_bar, dpi=dpi)
     render = render_cloud(cloud, *geometry.panel_px, background=None if transparent else (1, 1, 1),
                           **render_options)
-    fig = compose_figure([render], geometry, [title] if title else None, units, legend, scale_bar,
-                         transparent)
+    fig = compose_figure([render], geometry, titles=[title] if title else None, units=units,
+                         legend=legend, scale_bar=scale_bar, transparent=transparent)
     return fig, render
 
 
