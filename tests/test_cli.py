@@ -74,7 +74,8 @@ _MOMENTS_S = (0.4, 0.8, 1.5, 3.0)
 def test_ctrl_c_at_any_moment_exits_130_with_one_line(delay_s, tmp_path):
     out = tmp_path / "big.png"
     proc = subprocess.Popen(
-        [sys.executable, "-m", "orbitalrender", "figure", "3dz2", "4fxyz", "4fz3", "5,4,1", "--resolution", "256",
+        [sys.executable, "-m", "orbitalrender", "figure", "3dz2", "4fxyz", "4fz3", "5,4,1",
+         "--resolution", "256",
          "--size", "3000x2400", "--supersample", "4", "--out", str(out)],
         env=_ENV, cwd=tmp_path, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
     time.sleep(delay_s)

@@ -66,6 +66,8 @@ QUICK = {
                 "orbitalrender.picture.output.save_figure"),
     "radial": (lambda t: ["radial", "2pz", "--out", t / "r.png"], "r.png",
                "orbitalrender.picture.output.save_figure"),
+    "cloud": (lambda t: ["cloud", "2pz", "--points", "2000", "--seed", "1", "--size", "240x160",
+                         "--out", t / "c.png"], "c.png", "orbitalrender.lattice.cloud.draw_cloud"),
     "gallery": (lambda t: ["gallery", _gallery_config(t), "--out", t / "g", "--jobs", "1", "--quiet"],
                 "g/p2.png", "orbitalrender.gallery.runner.run_gallery"),
 }

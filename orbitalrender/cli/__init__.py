@@ -29,6 +29,7 @@ COMMANDS: dict[str, str] = {
     "radial": "radial",
     "figure": "figure",
     "mesh": "mesh",
+    "cloud": "cloud",
     "gallery": "gallery",
 }
 

@@ -108,14 +108,18 @@ def field_source(options) -> tuple[Any, str]:
 
 
 def add_command(subparsers, name: str, cls: type, run: Callable[[Any, argparse.Namespace], int], *,
-                help: str, description: str, preload: tuple[str, ...] = ()) -> argparse.ArgumentParser:
+                help: str, description: str, preload: tuple[str, ...] = (),
+                out_required: bool = False) -> argparse.ArgumentParser:
     """Add subcommand `name` whose options are those of `cls`; ``run(options, args)`` does the work.
 
     `preload` names the heavy modules the work needs: they are imported before the work
     starts (see :func:`orbitalrender.cli.main`), while Ctrl-C still ends the process at once,
     because some libraries turn an interrupt during their import into another error.
+    With `out_required`, ``--out`` must be given (the file has no default name).
     """
     p = subparsers.add_parser(name, help=help, description=description)
     add_options(p, cls)
+    if out_required:
+        next(a for a in p._actions if a.dest == "out").required = True
     p.set_defaults(run=lambda args: run(options_from(args, cls), args), preload=preload)
     return p

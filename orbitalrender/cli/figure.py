@@ -72,18 +72,18 @@ def run(options: LayoutOptions, args: argparse.Namespace) -> int:
         states = [None]
         surface_for = _field_surface(lattice, options.fraction)
     else:
-        states = parse_states(options.states, options, times_au=times)
+        states = parse_states(options.states, options, times_au=times, sets=times is None)
     if times is not None:
         surface_for = _strip_surface(states[0], options)
     count = len(states)
     ncols = count if times is not None else (options.columns or default_columns(count))
     width, height = picture_size(options, count, ncols, times is not None)
     require_picture_memory(options, (width, height))  # before any work
-    if options.nodal_axis and count == 1 and states[0] is not None:
+    if options.nodal_axis and count == 1 and states[0] is not None and not isinstance(states[0], tuple):
         state_nodal_axis_centre(states[0])  # refuse before any work
     out = options.out
     if out is None:
-        name = (label if options.field is not None else states[0].label if count == 1 else
+        name = (label if options.field is not None else options.states[0] if count == 1 else
                 f"shell{options.shell}" if options.shell else "states")
         out = default_output_path(name, "figure")
         check_writable(out)

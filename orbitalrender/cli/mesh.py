@@ -19,13 +19,13 @@ __all__ = ["register", "run"]
 
 
 def register(subparsers) -> None:
-    p = add_command(
+    add_command(
         subparsers, "mesh", MeshOptions, run,
         help="write the probability surface as a PLY, OBJ, STL, GLB or 3MF mesh",
         description="Write the surface enclosing a probability FRACTION of a STATE as a mesh file, "
                     "coloured by the phase of psi; optionally scaled and prepared for 3D printing.",
-        preload=("orbitalrender.mesh.pipeline", "orbitalrender.surface.extract"))
-    next(a for a in p._actions if a.dest == "out").required = True
+        preload=("orbitalrender.mesh.pipeline", "orbitalrender.surface.extract"),
+        out_required=True)
 
 
 def run(options: MeshOptions, args: argparse.Namespace) -> int:

@@ -27,6 +27,7 @@ from typing import Any
 
 from ..errors import UserInputError
 from ..jobs import KINDS as JOB_OPTIONS
+from ..jobs.cloud import CLOUD_SUFFIXES, check_cloud
 from ..jobs.mesh import MESH_SUFFIXES, check_mesh
 from ..jobs.option import Option, OptionError, build, convert, expected_text, key_of, options_of, shown
 from ..state.model import State
@@ -43,6 +44,7 @@ KINDS: dict[str, tuple[str, ...]] = {
     "section": (".png", ".svg", ".pdf"),
     "radial": (".png", ".svg", ".pdf"),
     "mesh": MESH_SUFFIXES,
+    "cloud": CLOUD_SUFFIXES,
 }
 _FIELD_KINDS = ("figure", "section", "mesh")
 
@@ -185,7 +187,7 @@ SCHEMA: dict[str, Key] = {k.name: k for k in [
     _K("file", _ALL, _file, "a relative file name inside the output folder", output_only=True),
     _K("caption", _ALL, _caption, "a string"),
     # the state
-    _K("state", ("figure", "section", "mesh", "layout"), _state_text, "a STATE string, e.g. '3dz2'"),
+    _K("state", ("figure", "section", "mesh", "layout", "cloud"), _state_text, "a STATE string, e.g. '3dz2'"),
     _K("states", ("radial", "layout"), _state_list, "a non-empty list of STATE strings"),
     # every option of the jobs
     *_option_keys(),
@@ -329,6 +331,11 @@ def _check_together(opts: dict, kind: str, file: str, states: tuple[State, ...],
     if opts.get("phase_map") == "sign" and not all(is_real(s) for s in states):
         raise bad("phase_map", "cannot be 'sign' for a complex state (psi not real up to one "
                                "global phase): use 'uniform' or 'cvd'")
+    if kind == "cloud":
+        try:
+            check_cloud(job_options("cloud", opts), file, states[0] if states else None)
+        except (UserInputError, ValueError) as exc:
+            raise ConfigError(f"{_where(path, table, None)}: {exc}") from None
     if kind == "figure" and opts.get("nodal_axis") and states:
         st = states[0]
         if not st.is_single_centre or any(t.m == 0 for t in st.terms):

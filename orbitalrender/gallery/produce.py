@@ -124,6 +124,8 @@ def requests_for(spec: OutputSpec, caps: Caps = Caps()) -> list[Request]:
         return [_surface_request(spec, s, caps) for s in states]
     if spec.kind == "section":
         return [_level_request(spec, states[0])] if spec.options.get("contour", True) else []
+    if spec.kind == "cloud" and spec.options.get("surface", False):
+        return [_surface_request(spec, states[0], caps)]
     return []
 
 
@@ -399,6 +401,20 @@ def _draw_section(work: _Work, path: Path):
     label = state.label if state is not None else Path(o.field).stem
     fig, md = section_job(source, o, label=label, level_for=work.level)
     return _save(work, fig, path, md)
+
+
+@_drawer("cloud")
+def _draw_cloud(work: _Work, path: Path):
+    from ..atomic import atomic_path
+    from ..jobs.cloud import cloud_job
+
+    result, md = cloud_job(_state_of(work), work.options, suffix=path.suffix,
+                           surface_for=_figure_surfaces(work), fit_size=work.caps.size)
+    if path.suffix.lower() != ".ply":
+        return _save(work, result, path, md)
+    with atomic_path(path) as tmp:
+        tmp.write_bytes(result)
+    return {**md, "file": work.spec.file}, None
 
 
 @_drawer("radial")

@@ -12,6 +12,7 @@ layout        LayoutOptions       figure_job              ``figure`` / ``layout`
 section       SectionOptions      section_job             ``section`` / ``section``
 radial        RadialOptions       radial_job              ``radial`` / ``radial``
 mesh          MeshOptions         mesh_job                ``mesh`` / ``mesh``
+cloud         CloudOptions        cloud_job               ``cloud`` / ``cloud``
 describe      DescribeOptions     describe_job            ``describe`` / (none)
 ============  ==================  ======================  =============================
 
@@ -82,6 +83,7 @@ supersample must be an integer in [1, 4], got 5
 
 from __future__ import annotations
 
+from .cloud import CloudOptions, cloud_job
 from .describe import DescribeOptions, describe_job
 from .figure import FigureOptions, LayoutOptions, figure_job
 from .mesh import MeshOptions, check_mesh, mesh_job
@@ -93,8 +95,8 @@ from .shared import FieldOptions, FileOptions, LatticeOptions, PictureOptions, S
 __all__ = ["KINDS", "Option", "OptionError", "Options", "option", "options_of", "build",
            "StateOptions", "FieldOptions", "LatticeOptions", "PictureOptions", "FileOptions",
            "FigureOptions", "LayoutOptions", "SectionOptions", "RadialOptions", "MeshOptions",
-           "DescribeOptions", "figure_job", "section_job", "radial_job", "mesh_job", "describe_job",
-           "check_mesh"]
+           "DescribeOptions", "CloudOptions", "figure_job", "section_job", "radial_job", "mesh_job",
+           "describe_job", "cloud_job", "check_mesh"]
 
 #: Output kind -> its options dataclass.
 KINDS: dict[str, type] = {
@@ -103,5 +105,6 @@ KINDS: dict[str, type] = {
     "section": SectionOptions,
     "radial": RadialOptions,
     "mesh": MeshOptions,
+    "cloud": CloudOptions,
     "describe": DescribeOptions,
 }

@@ -15,7 +15,7 @@ from typing import Any, ClassVar
 
 from ..picture.camera import PROJECTIONS
 from ..picture.triad import TRIAD_MODES
-from .option import option
+from .option import Options, option
 from .shared import (
     FRACTION,
     FRACTION_HELP,
@@ -29,8 +29,8 @@ from .shared import (
     surface_of,
 )
 
-__all__ = ["FigureOptions", "LayoutOptions", "PROJECTIONS", "SIZE_RANGE_PX", "FIGURE_SIZE_PX", "PANEL_PX",
-           "parse_size", "figure_job", "picture_size", "view_record", "require_picture_memory"]
+__all__ = ["ViewOptions", "FigureOptions", "LayoutOptions", "PROJECTIONS", "SIZE_RANGE_PX", "FIGURE_SIZE_PX",
+           "PANEL_PX", "parse_size", "figure_job", "picture_size", "view_record", "require_picture_memory"]
 
 #: Sides of a picture accepted, px: below 64 the legend and title do not fit; above 8192 one
 #: supersampled render needs gigabytes.
@@ -62,15 +62,10 @@ def _camera(zoom: float) -> None:
 
 
 @dataclass(frozen=True)
-class FigureOptions(FileOptions, PictureOptions, LatticeOptions, FieldOptions, StateOptions):
-    """Options of one 3D picture (gallery kind ``figure``)."""
+class ViewOptions(Options):
+    """How a 3D scene is seen and framed: size, camera, phase map and legend (figures and clouds)."""
 
-    STATE_NARGS: ClassVar[str] = "?"
-    states: tuple[str, ...] = ()
-    fraction: float = option(FRACTION, FRACTION_HELP, lo=0, hi=1, lo_open=True, hi_open=True,
-                             metavar="F")
     dpi: float = option(100.0, "dots per inch of the figure", lo=10.0, hi=2400.0)
-    title: str | None = option(None, "title of a single picture (default: state and F)", type="text")
     width_px: int | None = option(
         None, f"size of the whole figure in pixels (default {FIGURE_SIZE_PX[0]}x{FIGURE_SIZE_PX[1]} for "
               f"one picture; panels of about {PANEL_PX} px for a grid or time strip)",
@@ -82,13 +77,24 @@ class FigureOptions(FileOptions, PictureOptions, LatticeOptions, FieldOptions, S
                                 flag="--azimuth", metavar="DEG")
     elevation_deg: float = option(20.0, "viewing direction above the xy plane", lo=-90, hi=90,
                                   unit="deg", flag="--elevation", metavar="DEG")
-    zoom: float = option(1.0, "1 fits the surface; 2 is twice as large", lo=0, lo_open=True,
-                         check=_camera)
+    zoom: float = option(1.0, "1 fits the surface (or the cloud); 2 is twice as large", lo=0,
+                         lo_open=True, check=_camera)
     projection: str = option("orthographic", "orthographic (lengths true to the scale bar) or perspective",
                              type="text", choices=PROJECTIONS)
     phase_map: str = option("uniform", "uniform (constant lightness), cvd (red-green safe) or sign "
                             "(real states)", type="text", choices=PHASE_MAPS)
     legend: bool = option(True, "leave out the phase legend and scale bar", type="bool")
+
+
+@dataclass(frozen=True)
+class FigureOptions(ViewOptions, FileOptions, PictureOptions, LatticeOptions, FieldOptions, StateOptions):
+    """Options of one 3D picture (gallery kind ``figure``)."""
+
+    STATE_NARGS: ClassVar[str] = "?"
+    states: tuple[str, ...] = ()
+    fraction: float = option(FRACTION, FRACTION_HELP, lo=0, hi=1, lo_open=True, hi_open=True,
+                             metavar="F")
+    title: str | None = option(None, "title of a single picture (default: state and F)", type="text")
     supersample: int = option(3, "antialiasing: K x K samples per pixel", type="integer", lo=1, hi=4,
                               metavar="K")
     cutaway: str | None = option(
@@ -218,9 +224,12 @@ def figure_job(states: Sequence, options: FigureOptions, *,
         from ..state.phase import sign_rotation
 
         for s in states:
-            if isinstance(s, State):
-                sign_rotation(s)
-    surfaces = [surface(s) for s in states]
+            for member in (s if isinstance(s, tuple) else (s,)):
+                if isinstance(member, State):
+                    sign_rotation(member)
+    # a hybrid set (a tuple of members) is one panel of several surfaces in one scene
+    groups = [[surface(m) for m in s] if isinstance(s, tuple) else [surface(s)] for s in states]
+    surfaces = [g[0] for g in groups]
     strip = times_au is not None
     ncols = (len(surfaces) if strip else
              getattr(options, "columns", None) or default_columns(len(surfaces)))
@@ -230,6 +239,13 @@ def figure_job(states: Sequence, options: FigureOptions, *,
         size = fit_size(*size)
     first = surfaces[0]
     common = dict(command="figure", view=view_record(options, size))
+    if single and len(groups[0]) > 1:
+        fig, rendered = figure_3d(groups[0], *size, title=options.title or _set_title(groups[0]),
+                                  **compose, **render)
+        md = figure_metadata(None, first.fraction_requested, None, first.lattice_shape[0],
+                             panels=[_panel_record(s) for s in groups[0]], px_per_a0=rendered.px_per_a0,
+                             **common)
+        return fig, md
     if single:
         fig, rendered = figure_3d(first, *size, title=options.title, **compose, **render)
         source = {} if first.state is not None else {"source": options.field}
@@ -238,8 +254,8 @@ def figure_job(states: Sequence, options: FigureOptions, *,
                              px_per_a0=rendered.px_per_a0, **common, **source)
         return fig, md
     titles = (time_labels(first.state, times_au, options.time_unit) if strip else
-              [surface_title(s) for s in surfaces])
-    fig, renders = small_multiples(surfaces, titles, ncols=ncols, width_px=size[0], height_px=size[1],
+              [_set_title(g) if len(g) > 1 else surface_title(g[0]) for g in groups])
+    fig, renders = small_multiples(groups, titles, ncols=ncols, width_px=size[0], height_px=size[1],
                                    shared_target=strip, **compose, **render)
     if strip:
         md = figure_metadata(first.state.at_time(0.0), first.fraction_requested, None,
@@ -247,6 +263,20 @@ def figure_job(states: Sequence, options: FigureOptions, *,
                              px_per_a0=renders[0].px_per_a0, **common)
     else:
         md = figure_metadata(None, first.fraction_requested, None, first.lattice_shape[0],
-                             panels=[_panel_record(s) for s in surfaces], px_per_a0=renders[0].px_per_a0,
-                             **common)
+                             panels=[_panel_record(s) for g in groups for s in g],
+                             px_per_a0=renders[0].px_per_a0, **common)
     return fig, md
+
+
+def _set_title(group) -> str:
+    """Title of a hybrid set drawn together: the set's name (members' labels without [k]), F,
+    and Z and the reduced mass where they are not the defaults, as :func:`surface_title` words them."""
+    import re
+
+    from ..state.notation import conditions_label, pretty_label
+
+    state = group[0].state
+    parts = [pretty_label(re.sub(r"\[\d+\]$", "", state.label)), f"F = {group[0].fraction_requested:g}"]
+    if extra := conditions_label(state.Z, state.reduced_mass_ratio):
+        parts.append(extra)
+    return ", ".join(parts)

@@ -118,18 +118,24 @@ class FileOptions(Options):
                                 metavar="FILE.json", key="")
 
 
-def parse_states(texts, options: StateOptions, *, times_au=None) -> list:
+def parse_states(texts, options: StateOptions, *, times_au=None, sets: bool = False) -> list:
     """The States that the STATE `texts` and the physics of `options` describe.
 
-    With `times_au`, the one STATE at each of those times (a time strip).
+    With `times_au`, the one STATE at each of those times (a time strip).  With `sets`, a
+    hybrid set label (``sp3``) gives the tuple of its members, drawn together in one panel;
+    without, it is refused with a request for one member.
     """
-    from ..state.notation import parse_state
+    from ..state.notation import hybrid_set_size, parse_state
+    from ..state.notation import parse_states as expand
     from ..state.units import femtoseconds_to_au, nucleus_reduced_mass_ratio
 
     mu = nucleus_reduced_mass_ratio(options.nucleus)
     t0 = options.time if options.time_unit == "au" else femtoseconds_to_au(options.time)
     if times_au is not None:
         return [parse_state(texts[0], Z=options.Z, reduced_mass_ratio=mu, time_au=t) for t in times_au]
+    if sets:
+        return [expand(t, Z=options.Z, reduced_mass_ratio=mu, time_au=t0) if hybrid_set_size(t)
+                else parse_state(t, Z=options.Z, reduced_mass_ratio=mu, time_au=t0) for t in texts]
     return [parse_state(t, Z=options.Z, reduced_mass_ratio=mu, time_au=t0) for t in texts]
 
 

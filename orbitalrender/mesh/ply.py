@@ -23,6 +23,9 @@ custom vertex properties)::
     <V vertex records, 28 (or 32) bytes each> <F face records, 13 bytes each>
 
 Faces are counter-clockwise seen from outside.
+
+A point cloud (:func:`encode_ply_points`) is the same file without faces: x, y, z in a0,
+red, green, blue (sRGB of the phase colour), phase and density; 23 bytes per point.
 """
 
 from __future__ import annotations
@@ -34,7 +37,7 @@ import trimesh
 
 from .bodies import concatenate
 
-__all__ = ["SUFFIX", "encode_ply"]
+__all__ = ["SUFFIX", "encode_ply", "encode_ply_points"]
 
 SUFFIX = ".ply"
 
@@ -70,6 +73,50 @@ def encode_ply(bodies: Sequence[trimesh.Trimesh], comment: str = "") -> bytes:
     line = " ".join(f"orbitalrender {comment}".split()).encode("ascii", "replace")
     lines.insert(2, b"comment " + line)
     return b"\n".join(lines) + b"\n" + sep + body
+
+
+_POINT_RECORD = np.dtype([("x", "<f4"), ("y", "<f4"), ("z", "<f4"), ("red", "u1"),
+                          ("green", "u1"), ("blue", "u1"), ("phase", "<f4"), ("density", "<f4")])
+_PLY_TYPES = {"<f4": "float", "u1": "uchar"}
+
+
+def encode_ply_points(points_a0: np.ndarray, psi: np.ndarray, rgb: np.ndarray,
+                      comment: str = "") -> bytes:
+    """The bytes of a binary PLY point cloud with per-point colour, ``phase`` and ``density``.
+
+    Parameters
+    ----------
+    points_a0 : ndarray, shape (N, 3)
+        Positions in a0.
+    psi : ndarray of complex, shape (N,)
+        psi at each point: ``phase`` is arg psi in (-pi, pi], ``density`` |psi|^2 in a0^-3.
+    rgb : ndarray, shape (N, 3)
+        sRGB colour of each point in [0, 1].
+    comment : str
+        One line for the header.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> data = encode_ply_points(np.zeros((2, 3)), np.array([1, -1j]), np.ones((2, 3)))
+    >>> data.count(b"\\n", 0, data.index(b"end_header")), len(data.split(b"end_header\\n")[1])
+    (12, 46)
+    """
+    record = np.empty(len(points_a0), dtype=_POINT_RECORD)
+    for axis, name in enumerate("xyz"):
+        record[name] = points_a0[:, axis]
+    colour = np.clip(np.rint(np.asarray(rgb) * 255.0), 0, 255).astype(np.uint8)
+    for channel, name in enumerate(("red", "green", "blue")):
+        record[name] = colour[:, channel]
+    record["phase"] = np.angle(psi)
+    record["density"] = np.abs(psi) ** 2
+    line = " ".join(f"orbitalrender {comment}; units a0".split())
+    header = ["ply", "format binary_little_endian 1.0", f"comment {line}",
+              f"element vertex {len(record)}"]
+    header += [f"property {_PLY_TYPES[_POINT_RECORD[name].str.lstrip('|')]} {name}"
+               for name in _POINT_RECORD.names]
+    header.append("end_header")
+    return ("\n".join(header) + "\n").encode("ascii", "replace") + record.tobytes()
 
 
 def _concatenate(bodies: Sequence[trimesh.Trimesh]) -> trimesh.Trimesh:

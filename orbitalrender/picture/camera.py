@@ -121,6 +121,7 @@ def frame_camera(surfaces: Surface | Sequence[Surface], camera: Camera = DEFAULT
     Parameters
     ----------
     surfaces : Surface or sequence of Surface
+        May be empty when `extra_points_a0` is given (a point cloud).
     camera : Camera
         Values already set are kept.
     aspect : float
@@ -132,10 +133,11 @@ def frame_camera(surfaces: Surface | Sequence[Surface], camera: Camera = DEFAULT
     -------
     Camera
     """
-    surfaces = as_surfaces(surfaces)
-    pts = np.concatenate([s.vertices_a0 for s in surfaces])
+    points_only = extra_points_a0 is not None and not isinstance(surfaces, Surface) and not len(surfaces)
+    parts = [] if points_only else [s.vertices_a0 for s in as_surfaces(surfaces)]
     if extra_points_a0 is not None:
-        pts = np.concatenate([pts, np.asarray(extra_points_a0, dtype=float).reshape(-1, 3)])
+        parts.append(np.asarray(extra_points_a0, dtype=float).reshape(-1, 3))
+    pts = np.concatenate(parts)
     target = np.array(camera.target_a0) if camera.target_a0 is not None \
         else 0.5 * (pts.min(axis=0) + pts.max(axis=0))
     rel = pts - target

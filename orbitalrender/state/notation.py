@@ -9,6 +9,10 @@ Grammar (spaces are ignored)::
               | '(' n ',' l ',' m ')'    the same, bracketed
               | 'real(' n ',' l ',' m ')' real orbital of index m (cos for m > 0, sin for m < 0)
               | label                    1s, 2pz, 3dxy, 3dx2-y2, 4fz3, 4fxyz, ... (also 2p_z, 3d_z2)
+              | [n] hybrid '[' k ']'     member k of sp, sp2, sp3, sp3d, sp3d2 (state/hybrid.py)
+
+A hybrid SET label alone (``sp3``, ``3sp3d2``) stands for all its members: read it with
+:func:`parse_states`; :func:`parse_state` and a superposition refuse it.
 
 ``j`` may stand for ``i``.  Centres are in a0.  The real labels map to
 real-orbital indices m as follows (the usual Cartesian labelling)::
@@ -24,9 +28,11 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass
 
+from .hybrid import HYBRID_SETS, hybrid_member, hybrid_members, parse_hybrid
 from .model import State, eigenstate, real_orbital, superpose
 
-__all__ = ["REAL_LABELS", "parse_state", "pretty_label", "conditions_label", "StateSyntaxError"]
+__all__ = ["REAL_LABELS", "hybrid_set_size", "parse_state", "parse_states", "pretty_label",
+           "conditions_label", "StateSyntaxError"]
 
 _SHELL_L = {"s": 0, "p": 1, "d": 2, "f": 3}
 
@@ -133,7 +139,36 @@ def _coefficient(cur: _Cursor) -> complex | None:
     return None
 
 
+_HYBRID_TOKEN = re.compile(r"(\d+)?sp[0-9a-z]*(\[\d+\])?")
+
+
+def _set_refusal(name: str) -> str:
+    size = HYBRID_SETS[name].size
+    return (f"{name} is a set of {size} hybrid orbitals; pick one member, {name}[1] to "
+            f"{name}[{size}]")
+
+
+def _hybrid(cur: _Cursor, Z: float, mu: float) -> State | None:
+    """A hybrid member at the cursor, or None (the cursor is left where it was)."""
+    start = cur.pos
+    token = cur.match(_HYBRID_TOKEN)
+    if token is None:
+        return None
+    try:
+        name, n, k = parse_hybrid(token)
+        if k is None:
+            raise ValueError(_set_refusal(name))
+        return hybrid_member(name, k, n, Z=Z, reduced_mass_ratio=mu)
+    except ValueError as exc:
+        cur.pos = start
+        cur.fail(str(exc))
+    raise AssertionError  # pragma: no cover  (fail always raises)
+
+
 def _orbital(cur: _Cursor, Z: float, mu: float) -> State:
+    hybrid = _hybrid(cur, Z, mu)
+    if hybrid is not None:
+        return hybrid
     if cur.take("real("):
         n, l, m = _triple(cur)
         cur.expect(")")
@@ -251,6 +286,41 @@ def parse_state(text: str, Z: float = 1.0, reduced_mass_ratio: float = 1.0,
     return superpose(parts, time_au=time_au, label=label)
 
 
+def parse_states(text: str, Z: float = 1.0, reduced_mass_ratio: float = 1.0,
+                 time_au: float = 0.0) -> tuple[State, ...]:
+    """Every state a STATE text stands for: the members of a hybrid set label such as
+    ``sp3`` (drawn together, one surface each), else the one state of :func:`parse_state`.
+
+    Examples
+    --------
+    >>> [s.label for s in parse_states("sp")], [s.label for s in parse_states("2pz")]
+    (['sp[1]', 'sp[2]'], ['2pz'])
+    """
+    hybrid = parse_hybrid(text) if isinstance(text, str) else None
+    if hybrid is not None and hybrid[2] is None:
+        if Z <= 0:
+            raise ValueError(f"Z must be positive, got {Z}")
+        members = hybrid_members(hybrid[0], hybrid[1], Z=Z, reduced_mass_ratio=reduced_mass_ratio)
+        return tuple(m.at_time(time_au) for m in members)
+    return (parse_state(text, Z, reduced_mass_ratio, time_au),)
+
+
+def hybrid_set_size(text: str) -> int | None:
+    """The number of members if `text` is a hybrid set label (``sp3``), else None.
+
+    Examples
+    --------
+    >>> hybrid_set_size("sp3d"), hybrid_set_size("sp3d[1]"), hybrid_set_size("1s")
+    (5, None, None)
+    """
+    try:
+        hybrid = parse_hybrid(text)
+    except ValueError:
+        return None
+    return HYBRID_SETS[hybrid[0]].size if hybrid is not None and hybrid[2] is None else None
+
+
+_HYBRID_NAME = re.compile(r"^(\d*)sp(\d?)(d?)(\d?)(\[\d+\])?$")
 _REAL_LABEL = re.compile(r"^(\d+)([spdf])(.*)$")
 _EIGEN_LABEL = re.compile(r"^(\d+),(\d+),(-?\d+)$")
 
@@ -263,9 +333,16 @@ def pretty_label(label: str) -> str:
     --------
     >>> pretty_label("3dx2-y2"), pretty_label("2pz"), pretty_label("3,2,-1")
     ('3d$_{x^{2}-y^{2}}$', '2p$_{z}$', '$|3, 2, -1\\\\rangle$')
+    >>> pretty_label("sp3[2]"), pretty_label("3sp3d2")
+    ('sp$^{3}$[2]', '3sp$^{3}$d$^{2}$')
     >>> pretty_label("1s"), pretty_label("1s@(0,0,-0.7) - 1s@(0,0,0.7)")
     ('1s', '1s@(0,0,-0.7) - 1s@(0,0,0.7)')
     """
+    mt = _HYBRID_NAME.match(label)
+    if mt:
+        powers = "".join(f"{letter}$^{{{power}}}$" if power else letter
+                         for letter, power in (("p", mt[2]), (mt[3], mt[4])) if letter)
+        return f"{mt[1]}s{powers}{mt[5] or ''}"
     mt = _REAL_LABEL.match(label)
     if mt and mt[2] + mt[3] in REAL_LABELS and mt[3]:
         sub = re.sub(r"(\d)", r"^{\1}", mt[3])

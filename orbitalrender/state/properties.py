@@ -263,7 +263,7 @@ class SuperpositionProperties:
     """
 
     label: str
-    kind: str  # "superposition"
+    kind: str  # "superposition" or "hybrid orbital"
     Z: float
     reduced_mass_ratio: float
     terms: tuple[tuple[int, int, int, complex, tuple[float, float, float]], ...]  # n, l, m, c, centre
@@ -342,6 +342,17 @@ def _quadrature_moments(state: State) -> tuple[float, float, float]:
     return tuple(float(np.sum(density * r ** k) / norm) for k in (1, 2, -1))
 
 
+def _is_hybrid_member(state: State) -> bool:
+    """True for a state made by :func:`orbitalrender.state.hybrid.hybrid_member` (by its label)."""
+    from .hybrid import parse_hybrid
+
+    try:
+        parsed = parse_hybrid(state.label)
+    except ValueError:
+        return False
+    return parsed is not None and parsed[2] is not None and state.is_single_centre
+
+
 def state_properties(state: State) -> EigenProperties | SuperpositionProperties:
     """Derived quantities of any State.
 
@@ -374,14 +385,18 @@ def state_properties(state: State) -> EigenProperties | SuperpositionProperties:
                 for n, _, _, c, _ in terms)
         mean_r, mean_r2, mean_inv = _quadrature_moments(state)
         ev = e * HARTREE_EV
-        if not state.is_stationary:
+        if state.is_stationary:
+            notes.append(f"a stationary state: every term has n = {state.max_n}, so the energy is "
+                         f"exactly E_{state.max_n} and the density does not change in time")
+        else:
             notes.append("not an energy eigenstate: the energy is a mean, the density changes in time")
     else:
         e = ev = mean_r = mean_r2 = mean_inv = None
         notes.append(f"terms on {len(state.centres_a0)} centres: energy and distances from one "
                      "nucleus are not defined")
     return SuperpositionProperties(
-        label=state.label, kind="superposition", Z=float(state.Z),
+        label=state.label, kind="hybrid orbital" if _is_hybrid_member(state) else "superposition",
+        Z=float(state.Z),
         reduced_mass_ratio=float(state.reduced_mass_ratio), terms=terms,
         is_stationary=state.is_stationary, mean_energy_hartree=e, mean_energy_eV=ev,
         mean_radius_a0=mean_r, mean_square_radius_a0_2=mean_r2, mean_inverse_radius_per_a0=mean_inv,
