@@ -145,7 +145,7 @@ def test_an_output_path_that_cannot_be_a_file_is_refused(tmp_path, capsys):
     plain.write_text("a file, not a folder")
     folder = tmp_path / "taken.stl"
     folder.mkdir()
-    for out, message in ((plain / "m.stl", "does not exist"), (folder, "is a folder")):
+    for out, message in ((plain / "m.stl", "is a file, not a folder"), (folder, "is a folder")):
         status, _, err = _run(capsys, "2pz", "--fraction", "0.9", *LOW, "--out", str(out))
         assert status == 2 and message in err and len(err.strip().splitlines()) == 1
     assert sorted(p.name for p in tmp_path.iterdir()) == ["notes.txt", "taken.stl"]

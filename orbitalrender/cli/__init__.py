@@ -16,6 +16,7 @@ import sys
 import traceback
 
 from .. import __version__
+from ..atomic import check_distinct_outputs, output_set
 from ..errors import UserInputError
 from ..lattice.memory import MemoryLimitError
 
@@ -30,6 +31,9 @@ COMMANDS: dict[str, str] = {
     "mesh": "mesh",
     "gallery": "gallery",
 }
+
+#: Commands whose outputs are not one set (the gallery replaces each output's files as a set).
+_SEPARATE_OUTPUTS = frozenset({"gallery"})
 
 _USER_ERRORS = (UserInputError, ValueError, MemoryLimitError, FileNotFoundError,
                 PermissionError, IsADirectoryError, NotADirectoryError)
@@ -58,7 +62,12 @@ def main(argv: list[str] | None = None) -> int:
     parser = build_parser()
     args = parser.parse_args(argv)
     try:
-        status = int(args.run(args) or 0)
+        if args.command in _SEPARATE_OUTPUTS:
+            status = int(args.run(args) or 0)
+        else:
+            check_distinct_outputs([getattr(args, "out", None), getattr(args, "report", None)])
+            with output_set():
+                status = int(args.run(args) or 0)
         sys.stdout.flush()  # inside the try, so a reader that went away is handled below
         return status
     except BrokenPipeError:

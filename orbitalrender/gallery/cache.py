@@ -180,7 +180,7 @@ def _lookup(cache: DiskCache, stats: CacheStats, kind: str, key: str, suffix: st
     value = compute()
     stats.count(kind, computed=True)
     if path is not None:
-        with atomic_path(path) as tmp:
+        with atomic_path(path, join_set=False) as tmp:  # readable at once by later outputs
             store(tmp, value)
     return value
 

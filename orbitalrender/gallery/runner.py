@@ -28,7 +28,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import IO
 
-from ..atomic import check_writable
+from ..atomic import check_outputs_inside, check_writable
 from .cache import DEFAULT_LIMIT_BYTES, CacheStats, DiskCache, evict
 from .config import GalleryConfig, load_config
 from .produce import Caps, OutputRecord, Request, make_output, make_request, requests_for
@@ -203,8 +203,12 @@ def run_gallery(config: GalleryConfig | str | os.PathLike, out_dir: str | os.Pat
     if not isinstance(config, GalleryConfig):
         config = load_config(config)
     out = Path(out_dir)
+    if out.exists() and not out.is_dir():
+        raise NotADirectoryError(f"the output folder {out} is a file, not a folder")
     out.mkdir(parents=True, exist_ok=True)
     check_writable(out / "index.html")
+    check_outputs_inside(out, ["index.html"] + [name for spec in config.outputs
+                                                for name in (spec.file, spec.report_file)])
     jobs = default_jobs() if jobs is None else int(jobs)
     if jobs < 1:
         raise ValueError(f"jobs must be at least 1, got {jobs}")
