@@ -7,7 +7,7 @@ import math
 import numpy as np
 import pytest
 import sympy as sp
-from hypothesis import given, settings
+from hypothesis import given
 from hypothesis import strategies as st
 from scipy.constants import physical_constants
 from scipy.special import roots_genlaguerre, roots_legendre
@@ -187,7 +187,6 @@ def test_two_centre_quantities_are_reported_as_not_defined():
     assert d["terms"][0]["centre_a0"] == [0.0, 0.0, -0.7]
 
 
-@settings(max_examples=40, deadline=None)
 @given(n=st.integers(1, 40), data=st.data(), Z=st.floats(0.2, 30.0))
 def test_random_shells_are_normalised_and_have_all_their_nodes(n, data, Z):
     # int R^2 r^2 dr = 1 and n - l - 1 radial nodes (Sturm oscillation count) for any valid n, l, Z.
