@@ -136,10 +136,13 @@ STATE_ERRORS = [
 ]
 OPTION_ERRORS = [
     (["--Z", "nan"], "Z must be"),
-    (["--Z", "-1"], "Z must be positive"),
+    (["--Z", "-1"], "Z must be from 0.01 to 137"),
     (["--Z", "inf"], "Z must be"),
+    (["--Z", "1e-300"], "Z must be from 0.01 to 137"),  # once doubled a search bound without end
+    (["--Z", "1000"], "Z must be from 0.01 to 137"),
     (["--nucleus", "bogus"], "unknown nucleus 'bogus'"),
-    (["--nucleus", "nan"], "positive"),
+    (["--nucleus", "nan"], "must be a finite number"),
+    (["--nucleus", "1e-200"], "mass ratio must be at least 1"),
     (["--time", "nan"], "time must be finite"),
 ]
 COMMAND_ERRORS = {

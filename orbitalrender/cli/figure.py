@@ -32,6 +32,7 @@ from ..picture.render3d import (
     state_nodal_axis_centre,
     surface_title,
 )
+from ..state.limits import check_fraction
 from ..state.units import LENGTH_UNITS_PER_A0, femtoseconds_to_au, nucleus_reduced_mass_ratio
 from .common import add_lattice_arguments, add_state_arguments, box_from_args, lattice_dtype, state_from_args
 
@@ -141,8 +142,7 @@ def _check_options(args: argparse.Namespace):
     size = parse_size(args.size) if args.size is not None else None
     if not 10 <= args.dpi <= 2400:
         raise UserInputError(f"--dpi must be 10 to 2400, got {args.dpi:g}")
-    if not 0.0 < args.fraction < 1.0:
-        raise UserInputError(f"--fraction must lie strictly between 0 and 1, got {args.fraction:g}")
+    check_fraction(args.fraction, "--fraction")
     if not 1 <= args.supersample <= 4:
         raise UserInputError(f"--supersample must be 1 to 4, got {args.supersample}")
     if args.translucent_outer is not None and not 0.0 < args.translucent_outer <= 1.0:

@@ -30,6 +30,7 @@ from ..mesh.printable import (
 )
 from ..picture.colormap import PHASE_SCHEMES
 from ..picture.output import write_report
+from ..state.limits import check_fraction
 from ..state.units import LENGTH_UNITS_PER_A0
 from .common import add_lattice_arguments, add_state_arguments, box_from_args, lattice_dtype, state_from_args
 
@@ -87,6 +88,7 @@ def _check_options(args: argparse.Namespace) -> tuple[Path, str]:
     check_writable(out)
     if args.report:
         check_writable(args.report)
+    check_fraction(args.fraction, "--fraction")
     if args.size_mm is not None:
         length_scale(np.array([[0.0, 0, 0], [1.0, 0, 0]]), size_mm=args.size_mm)  # validates S
     wants_print = args.printable or args.parts or args.cutaway

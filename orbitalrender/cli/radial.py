@@ -19,6 +19,7 @@ from ..picture.output import (
     write_report,
 )
 from ..picture.radialplot import RADIAL_QUANTITIES, radial_figure, radial_metadata
+from ..state.limits import check_fraction
 from .common import add_picture_arguments, add_state_arguments, state_from_args
 
 __all__ = ["register", "run", "parse_quantities"]
@@ -65,8 +66,7 @@ def register(subparsers) -> None:
 
 def run(args: argparse.Namespace) -> int:
     quantities = parse_quantities(args.quantity)
-    if not 0.0 < args.fraction < 1.0:
-        raise UserInputError(f"--fraction must lie strictly between 0 and 1, got {args.fraction:g}")
+    check_fraction(args.fraction, "--fraction")
     check_dpi(args.dpi)
     out = check_output_paths(args.out, args.report)
     states = [state_from_args(args, text) for text in args.state]

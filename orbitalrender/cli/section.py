@@ -32,6 +32,7 @@ from ..picture.section import (
     section_figure,
     section_metadata,
 )
+from ..state.limits import check_fraction
 from .common import (
     add_field_arguments,
     add_picture_arguments,
@@ -109,8 +110,8 @@ def _check_options(args: argparse.Namespace):
     """Refuse bad options before any work; returns (plane, out path)."""
     if (args.field is None) == (args.state is None):
         raise UserInputError("give either a STATE or --field FILE")
-    if not args.no_contour and not 0.0 < args.fraction < 1.0:
-        raise UserInputError(f"--fraction must lie strictly between 0 and 1, got {args.fraction:g}")
+    if not args.no_contour:
+        check_fraction(args.fraction, "--fraction")
     if not MIN_PIXELS <= args.pixels <= MAX_PIXELS:
         raise UserInputError(f"--pixels must be {MIN_PIXELS} to {MAX_PIXELS}, got {args.pixels}")
     if args.extent is not None and not (args.extent > 0 and math.isfinite(args.extent)):

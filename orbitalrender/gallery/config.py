@@ -8,7 +8,7 @@ Every mistake raises :class:`ConfigError` with one line that names the file,
 the table (``defaults`` or ``output 'NAME' (outputs[i])``) and the key, and says
 what was expected, e.g.::
 
-    demo.toml: output 'shell3' (outputs[2]): key 'fraction' must be a number in (0, 1), got 1.5
+    demo.toml: output 'shell3' (outputs[2]): key 'fraction' must be a number in (0, 0.9999], got 1.5
 
 Validation touches no output: it parses every STATE, checks that user-field
 files exist, and refuses duplicate output names and file names, so a broken
@@ -35,6 +35,7 @@ from ..picture.layout import shell_states
 from ..picture.output import DPI_RANGE, check_dpi
 from ..picture.render3d import PROJECTIONS, Camera, parse_cutaway
 from ..picture.section import DENSITY_SCALES, MAX_PIXELS, MIN_PIXELS, PLANE_NAMES, plane
+from ..state.limits import FRACTION_MAX, Z_RANGE
 from ..state.model import State
 from ..state.notation import parse_state
 from ..state.units import LENGTH_UNITS_PER_A0, femtoseconds_to_au, nucleus_reduced_mass_ratio
@@ -253,7 +254,7 @@ SCHEMA: dict[str, Key] = {k.name: k for k in [
     # the state
     _K("state", ("figure", "section", "mesh", "layout"), _state_text, "a STATE string, e.g. '3dz2'"),
     _K("states", ("radial", "layout"), _state_list, "a non-empty list of STATE strings"),
-    _K("Z", _ALL, _number(0, 200, lo_open=True), _range_text("number", 0, 200, lo_open=True)),
+    _K("Z", _ALL, _number(*Z_RANGE), _range_text("number", *Z_RANGE)),
     _K("nucleus", _ALL, _nucleus, "a nucleus preset (infinite, hydrogen, deuterium, positronium, "
        "muonic-hydrogen) or a nucleus-to-electron mass ratio"),
     _K("time", _ALL, _number(), "a finite number"),
@@ -264,7 +265,8 @@ SCHEMA: dict[str, Key] = {k.name: k for k in [
        _range_text("number", 0, None, lo_open=True)),
     _K("field_origin_a0", _FIELD_KINDS, _numbers(3), "a list of three finite numbers"),
     # lattice and surface
-    _K("fraction", _ALL, _number(0, 1, True, True), _range_text("number", 0, 1, True, True)),
+    _K("fraction", _ALL, _number(0, FRACTION_MAX, lo_open=True),
+       _range_text("number", 0, FRACTION_MAX, lo_open=True)),
     _K("resolution", _SURFACES, _lattice_resolution, _range_text("integer", 8, 1024)),
     _K("box_a0", _SURFACES, _number(0, lo_open=True), _range_text("number", 0, None, lo_open=True)),
     _K("precision", _SURFACES, _choice(tuple(PRECISIONS)), _choice_text(tuple(PRECISIONS))),
@@ -488,7 +490,7 @@ def parse_config(data: Mapping[str, Any], path: str | os.PathLike = "config.toml
     ...     parse_config({"outputs": [{"name": "p", "kind": "radial", "states": ["2pz"], "fraction": 2}]})
     ... except ConfigError as exc:
     ...     print(exc)
-    config.toml: output 'p' (outputs[0]): key 'fraction' must be a number in (0, 1), got 2
+    config.toml: output 'p' (outputs[0]): key 'fraction' must be a number in (0, 0.9999], got 2
     """
     path = Path(path)
     folder = path.parent

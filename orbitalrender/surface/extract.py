@@ -36,8 +36,9 @@ from ..lattice.grid import Box, Lattice
 from ..lattice.memory import require_lattice_memory, require_surface_memory, surface_bytes_per_point
 from ..lattice.sampler import check_resolution, sample
 from ..state.hydrogen import radial_function
+from ..state.limits import check_fraction
 from ..state.model import State
-from .level import LevelResult, check_fraction, level_for_fraction
+from .level import LevelResult, level_for_fraction
 from .model import Surface
 
 __all__ = ["extract_surface", "surface_at_level", "surface_box", "vertex_normals"]
