@@ -35,8 +35,9 @@ from matplotlib.figure import Figure  # noqa: E402
 from matplotlib.image import imread, imsave  # noqa: E402
 from mpl_toolkits.mplot3d.art3d import Poly3DCollection  # noqa: E402
 
-from orbitalrender.picture.colormap import psi_to_rgb  # noqa: E402
-from orbitalrender.picture.render3d import Camera, render_surfaces  # noqa: E402
+from orbitalrender.colormap import psi_to_rgb  # noqa: E402
+from orbitalrender.picture.camera import Camera  # noqa: E402
+from orbitalrender.picture.scene import render_surfaces  # noqa: E402
 from orbitalrender.state.model import eigenstate  # noqa: E402
 from orbitalrender.surface.extract import extract_surface  # noqa: E402
 

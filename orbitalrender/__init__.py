@@ -19,26 +19,56 @@ Examples
 
 __version__ = "0.1.0"
 
-from .gallery.config import load_config
-from .gallery.runner import run_gallery
-from .lattice.grid import Box, Lattice
-from .lattice.sampler import default_box, sample
-from .lattice.userfield import load_field, save_field
-from .mesh.export import length_scale, surface_mesh, write_bodies
-from .mesh.pipeline import export_mesh
-from .mesh.printable import PrintOptions, make_printable, split_by_sign, thin_spots
-from .picture.layout import shell_states, small_multiples, time_strip
-from .picture.output import figure_metadata, save_figure, write_report
-from .picture.radialplot import radial_figure, radial_marks
-from .picture.render3d import Camera, figure_3d, render_surfaces
-from .picture.section import cross_section, plane, section_figure
-from .state.model import State, Term, eigenstate, energy_hartree, real_orbital, superpose
-from .state.notation import parse_state
-from .state.properties import EigenProperties, SuperpositionProperties, eigen_properties, state_properties
-from .surface.extract import extract_surface
-from .surface.level import LevelResult, level_for_fraction
-from .surface.model import Surface
-from .surface.topology import Topology, split_components, topology
+import importlib
+
+#: Public name -> the module (below this package) that defines it.  The modules are
+#: imported on first use (PEP 562), so ``import orbitalrender`` and the light modules
+#: that option definitions read load no heavy library.
+_EXPORTS: dict[str, str] = {
+    "load_config": "gallery.config",
+    "run_gallery": "gallery.runner",
+    "Box": "lattice.grid", "Lattice": "lattice.grid",
+    "default_box": "lattice.sampler", "sample": "lattice.sampler",
+    "load_field": "lattice.userfield", "save_field": "lattice.userfield",
+    "length_scale": "mesh.export", "surface_mesh": "mesh.export", "write_bodies": "mesh.export",
+    "export_mesh": "mesh.pipeline",
+    "PrintOptions": "mesh.print_options",
+    "make_printable": "mesh.printable", "thin_spots": "mesh.printable",
+    "split_by_sign": "mesh.split",
+    "shell_states": "picture.layout", "small_multiples": "picture.layout", "time_strip": "picture.layout",
+    "figure_metadata": "picture.output", "save_figure": "picture.output", "write_report": "picture.output",
+    "radial_figure": "picture.radialplot", "radial_marks": "picture.radialplot",
+    "Camera": "picture.camera",
+    "figure_3d": "picture.compose",
+    "render_surfaces": "picture.scene",
+    "plane": "picture.plane",
+    "cross_section": "picture.section",
+    "section_lines": "picture.nodal",
+    "section_figure": "picture.section_figure",
+    "State": "state.model", "Term": "state.model", "eigenstate": "state.model",
+    "energy_hartree": "state.model", "real_orbital": "state.model", "superpose": "state.model",
+    "parse_state": "state.notation",
+    "EigenProperties": "state.properties", "SuperpositionProperties": "state.properties",
+    "eigen_properties": "state.properties", "state_properties": "state.properties",
+    "extract_surface": "surface.extract",
+    "LevelResult": "surface.level", "level_for_fraction": "surface.level",
+    "Surface": "surface.model",
+    "Topology": "surface.topology", "split_components": "surface.topology", "topology": "surface.topology",
+}
+
+
+def __getattr__(name: str):
+    module = _EXPORTS.get(name)
+    if module is None:
+        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+    value = getattr(importlib.import_module(f".{module}", __name__), name)
+    globals()[name] = value  # later look-ups skip this function
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted(set(globals()) | set(_EXPORTS))
+
 
 __all__ = [
     "__version__",
@@ -51,7 +81,7 @@ __all__ = [
     "split_by_sign",
     "thin_spots",
     "figure_metadata", "save_figure", "write_report",
-    "plane", "cross_section", "section_figure", "radial_figure", "radial_marks",
+    "plane", "cross_section", "section_lines", "section_figure", "radial_figure", "radial_marks",
     "Camera", "render_surfaces", "figure_3d", "small_multiples", "time_strip", "shell_states",
     "load_config", "run_gallery",
 ]

@@ -224,7 +224,7 @@ def test_surface_of_a_given_lattice_refuses_before_its_work_arrays(monkeypatch):
 
 
 def test_render_refuses_before_its_buffers(monkeypatch):
-    from orbitalrender.picture.render3d import render_surfaces
+    from orbitalrender.picture.scene import render_surfaces
 
     s = extract_surface(eigenstate(2, 1, 0), 0.9, 24)
     _budget(monkeypatch, 2000)

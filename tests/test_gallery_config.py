@@ -81,6 +81,9 @@ def _message(tmp_path: Path, text: str) -> str:
     ('name = "shell3"\nkind = "figure"\nstate = "3s"\nphase_map = "rainbow"',
      "key 'phase_map' must be one of 'uniform', 'cvd', 'sign', got 'rainbow'"),
     ('name = "x"\nkind = "poster"\nstate = "3s"', "output 'x' (outputs[1]): key 'kind' must be one of"),
+    # the sign map of a complex state (the rule of orbitalrender.state.phase)
+    ('name = "x"\nkind = "section"\nstate = "2,1,1"\nphase_map = "sign"',
+     "key 'phase_map' cannot be 'sign' for a complex state"),
     # unknown key, with a hint for a near miss
     ('name = "x"\nkind = "figure"\nstate = "3s"\nphase-map = "cvd"',
      "key 'phase-map' is not a known key (did you mean 'phase_map'?)"),

@@ -12,6 +12,7 @@ import numpy as np
 import pytest
 from scipy.optimize import brentq
 
+from orbitalrender.picture.camera import Camera
 from orbitalrender.picture.layout import (
     default_columns,
     shared_cameras,
@@ -19,7 +20,6 @@ from orbitalrender.picture.layout import (
     small_multiples,
     time_strip,
 )
-from orbitalrender.picture.render3d import Camera
 from orbitalrender.state.model import eigenstate, real_orbital, superpose
 from orbitalrender.surface.extract import extract_surface
 

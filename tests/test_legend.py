@@ -6,7 +6,7 @@ import matplotlib.figure
 import numpy as np
 import pytest
 
-from orbitalrender.picture.colormap import SIGN_COLOURS, phase_to_rgb
+from orbitalrender.colormap import phase_to_rgb, sign_colours
 from orbitalrender.picture.legend import (
     draw_phase_legend,
     draw_phase_wheel,
@@ -62,8 +62,8 @@ def test_sign_swatches_use_the_sign_tones():
     ax = _axes()
     draw_sign_swatches(ax)
     faces = [tuple(p.get_facecolor()[:3]) for p in ax.patches]
-    np.testing.assert_allclose(faces[0], SIGN_COLOURS["positive"])
-    np.testing.assert_allclose(faces[1], SIGN_COLOURS["negative"])
+    np.testing.assert_allclose(faces[0], sign_colours()["positive"])
+    np.testing.assert_allclose(faces[1], sign_colours()["negative"])
     assert [t.get_text() for t in ax.texts] == ["+", "\u2212"]
     # and they are the tones the sign map gives to phase 0 and pi
     np.testing.assert_allclose(faces[0], phase_to_rgb(0.0, "sign"))

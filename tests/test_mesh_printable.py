@@ -14,16 +14,15 @@ from orbitalrender.errors import UserInputError
 from orbitalrender.lattice.sampler import sample
 from orbitalrender.mesh.bodies import face_components
 from orbitalrender.mesh.export import length_scale, surface_mesh
+from orbitalrender.mesh.print_options import PrintOptions
 from orbitalrender.mesh.printable import (
-    PrintOptions,
     make_printable,
-    phase_band_surfaces,
     require_single_solid,
     single_solid_problems,
     solid_parts,
-    split_by_sign,
     thin_spots,
 )
+from orbitalrender.mesh.split import phase_band_surfaces, split_by_sign
 from orbitalrender.state.notation import parse_state
 from orbitalrender.surface.extract import extract_surface
 

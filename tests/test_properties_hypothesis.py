@@ -28,6 +28,7 @@ from orbitalrender.lattice.grid import Lattice
 from orbitalrender.lattice.sampler import sample
 from orbitalrender.state.model import State, eigenstate, real_orbital, superpose
 from orbitalrender.state.notation import parse_state
+from orbitalrender.state.phase import is_real
 from orbitalrender.state.radial import radius_holding
 from orbitalrender.surface.extract import extract_surface
 from orbitalrender.surface.level import level_for_fraction
@@ -64,7 +65,7 @@ def one_centre_state(draw, n_max: int = 7) -> State:
     """A normalised superposition of 1-3 distinct orbitals on one centre, real or complex."""
     Z = draw(z_values)
     parts = draw(st.lists(orbital(Z, n_max), min_size=1, max_size=3,
-                          unique_by=lambda s: (s.terms[0].n, s.terms[0].l, s.terms[0].m, s.is_real)))
+                          unique_by=lambda s: (s.terms[0].n, s.terms[0].l, s.terms[0].m, is_real(s))))
     if draw(st.booleans()):  # real coefficients keep a superposition of real orbitals real
         cs = [complex(draw(st.floats(0.2, 2.0)) * draw(st.sampled_from([1, -1]))) for _ in parts]
     else:

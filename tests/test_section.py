@@ -1,4 +1,5 @@
-"""Tests of cross-sections (orbitalrender.picture.section) against closed forms and sympy."""
+"""Tests of cross-sections (picture.section, .nodal, .density, .section_figure) against closed
+forms and sympy."""
 
 import math
 import re
@@ -12,20 +13,15 @@ from skimage.color import rgb2lab
 from sympy import lambdify, symbols
 from sympy.physics.hydrogen import Psi_nlm
 
+from orbitalrender.colormap import phase_to_rgb
 from orbitalrender.lattice.grid import Lattice
 from orbitalrender.lattice.sampler import sample
-from orbitalrender.picture.colormap import phase_to_rgb
+from orbitalrender.picture.density import density_weight, shade
+from orbitalrender.picture.nodal import level_contour, nodal_lines, section_lines
 from orbitalrender.picture.output import save_figure
-from orbitalrender.picture.section import (
-    cross_section,
-    density_weight,
-    draw_section,
-    level_contour,
-    nodal_lines,
-    plane,
-    section_figure,
-    shade,
-)
+from orbitalrender.picture.plane import plane
+from orbitalrender.picture.section import cross_section
+from orbitalrender.picture.section_figure import draw_section, section_figure
 from orbitalrender.state.model import eigenstate, real_orbital, superpose
 from orbitalrender.state.units import a0_to
 
@@ -99,7 +95,7 @@ def test_complex_m1_hue_winds_once_in_xy():
     np.testing.assert_allclose(s.psi, reference, atol=1e-12)
     import matplotlib.figure
     ax = matplotlib.figure.Figure().add_subplot()
-    draw_section(ax, s, "uniform", "linear")
+    draw_section(ax, s, section_lines(s), scheme="uniform", scale="linear")
     image = np.asarray(ax.images[0].get_array())[..., :3]
     expected = shade(phase_to_rgb(phi + np.pi, "uniform"), density_weight(np.abs(reference) ** 2))
     np.testing.assert_allclose(image, expected, atol=1e-9)
@@ -175,7 +171,7 @@ def test_window_beyond_a_user_lattice_is_blank():
     user = Lattice(lat.values, lat.origin_a0, lat.spacing_a0, None)
     s = cross_section(user, plane("xy", 1.0), 4.0 * lat.extent_a0()[0][1], pixels=64, fraction=None)
     assert np.isnan(s.psi[0, 0]) and np.isfinite(s.psi[32, 32])
-    section_figure(s)  # draws without complaint
+    section_figure(s, section_lines(s))  # draws without complaint
 
 
 def test_plane_that_misses_the_state_is_an_error():
@@ -193,14 +189,14 @@ def test_nodal_plane_is_reported_not_drawn():
     # 2p_z vanishes on the whole xy plane (closed form psi ~ z)
     s = cross_section(real_orbital(2, 1, 0), plane("xy"), 8.0, pixels=32, fraction=None)
     assert s.is_nodal_plane and nodal_lines(s) == []
-    fig = section_figure(s)
+    fig = section_figure(s, section_lines(s))
     assert any("nodal plane" in t.get_text() for t in fig.axes[0].texts)
 
 
 def test_sign_map_needs_a_real_section():
     s = cross_section(eigenstate(2, 1, 1), plane("xy"), 8.0, pixels=32, fraction=None)
     with pytest.raises(ValueError, match="sign map"):
-        section_figure(s, scheme="sign")
+        section_figure(s, section_lines(s), scheme="sign")
     # a real orbital keeps its conventional sign: 3d_z2 positive along z (3 cos^2 0 - 1 = 2)
     s = cross_section(real_orbital(3, 2, 0), plane((1, 1, 1)), 12.0, pixels=32, fraction=None)
     assert s.rotation == 1
@@ -217,7 +213,7 @@ def test_log_weight_states_its_range():
 def test_axes_in_angstrom(tmp_path):
     # 1 a0 = 0.529177... angstrom (CODATA Bohr radius via scipy.constants)
     s = cross_section(eigenstate(1, 0, 0), plane("xz"), 4.0, pixels=32, fraction=None)
-    fig = section_figure(s, units="angstrom")
+    fig = section_figure(s, section_lines(s), units="angstrom")
     ax = fig.axes[0]
     assert ax.get_xlim()[1] == pytest.approx(4.0 * a0_to("angstrom"))
     assert "Å" in ax.get_xlabel()
@@ -225,7 +221,7 @@ def test_axes_in_angstrom(tmp_path):
 
 def test_svg_and_pdf_keep_the_lines_as_vectors(tmp_path):
     s = cross_section(eigenstate(2, 0, 0), plane("xz"), 8.0, pixels=64, fraction=0.9)
-    fig = section_figure(s)
+    fig = section_figure(s, section_lines(s))
     svg = save_figure(fig, tmp_path / "s.svg", {"state": "2s"}).read_text()
     for gid in ("enclosing-contour", "nodal-lines"):
         group = re.search(rf'<g id="{gid}">(.*?)</g>', svg, re.S)
@@ -243,14 +239,16 @@ def test_svg_and_pdf_keep_the_lines_as_vectors(tmp_path):
 def test_same_inputs_same_picture(tmp_path):
     def draw(name):
         s = cross_section(eigenstate(3, 2, 1), plane("xz"), 15.0, pixels=64, fraction=0.9)
-        return save_figure(section_figure(s, scale="log"), tmp_path / name, {"state": "3,2,1"}, dpi=50)
+        fig = section_figure(s, section_lines(s), scale="log")
+        return save_figure(fig, tmp_path / name, {"state": "3,2,1"}, dpi=50)
     assert draw("a.png").read_bytes() == draw("b.png").read_bytes()
 
 
 def test_figure_looks_sane(tmp_path):
     # every part drawn, nothing blank: the section is mostly white with coloured lobes
     s = cross_section(real_orbital(3, 2, 0), plane("xz"), pixels=96, fraction=0.9)
-    out = save_figure(section_figure(s, scale="log"), tmp_path / "s.png", {"state": "3dz2"}, dpi=60)
+    fig = section_figure(s, section_lines(s), scale="log")
+    out = save_figure(fig, tmp_path / "s.png", {"state": "3dz2"}, dpi=60)
     with Image.open(out) as im:
         rgb = np.asarray(im.convert("RGB"), dtype=float) / 255
     assert 0.3 < np.mean(np.all(rgb > 0.97, axis=-1)) < 0.95

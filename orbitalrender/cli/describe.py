@@ -17,6 +17,7 @@ import numpy as np
 from ..errors import UserInputError
 from ..lattice.grid import Lattice
 from ..state.model import State
+from ..state.phase import real_rotation
 from ..state.properties import state_properties
 from .common import (
     add_field_arguments,
@@ -69,7 +70,7 @@ def describe_field(lattice: Lattice, source: str = "") -> dict:
         "extent_a0": [list(e) for e in lattice.extent_a0()],
         "norm": float(np.sum(density, dtype=np.float64) * lattice.voxel_volume_a0_3),
         "max_abs_psi": float(np.sqrt(np.max(density))),
-        "is_real": bool(not np.any(lattice.values.imag)),
+        "is_real": real_rotation(lattice.values) is not None,  # up to one global phase
     }
 
 

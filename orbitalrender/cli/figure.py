@@ -18,20 +18,16 @@ import matplotlib as mpl
 import numpy as np
 
 from ..atomic import check_writable
+from ..colormap import PHASE_SCHEMES
 from ..errors import UserInputError
-from ..lattice.memory import require_lattice_memory, require_render_memory, surface_bytes_per_point
-from ..picture.colormap import PHASE_SCHEMES
+from ..lattice.memory import require_lattice_memory, surface_bytes_per_point
+from ..picture.axis import state_nodal_axis_centre
+from ..picture.camera import PROJECTIONS, Camera
+from ..picture.compose import figure_3d, fit_geometry, surface_title
+from ..picture.cutaway import parse_cutaway
 from ..picture.layout import default_columns, shell_states, small_multiples, time_strip
 from ..picture.output import default_output_path, figure_format, figure_metadata, save_figure, write_report
-from ..picture.render3d import (
-    PROJECTIONS,
-    Camera,
-    figure_3d,
-    fit_geometry,
-    parse_cutaway,
-    state_nodal_axis_centre,
-    surface_title,
-)
+from ..picture.scene import render_path, require_render_memory
 from ..state.limits import check_fraction
 from ..state.units import LENGTH_UNITS_PER_A0, femtoseconds_to_au, nucleus_reduced_mass_ratio
 from .common import add_lattice_arguments, add_state_arguments, box_from_args, lattice_dtype, state_from_args
@@ -204,8 +200,9 @@ def run(args: argparse.Namespace) -> int:
         probe = fit_geometry(10 * _DEFAULT_PANEL_PX, _DEFAULT_PANEL_PX + 30, 1, 1, True, True, args.dpi)
         width = ncols * _DEFAULT_PANEL_PX + probe.legend_px
         height = nrows * (_DEFAULT_PANEL_PX + probe.title_px)
-    banded = cutaway is None and not args.nodal_axis and args.translucent_outer in (None, 1.0)
-    require_render_memory(width, height, args.supersample, cutaway is not None, banded)  # before any work
+    path = render_path(cutaway=cutaway is not None, nodal_axis=args.nodal_axis,
+                       translucent_outer=args.translucent_outer)
+    require_render_memory(width, height, args.supersample, path)  # before any work
     if args.nodal_axis and len(states) == 1:
         state_nodal_axis_centre(states[0])  # refuse before any work
     if out is None:

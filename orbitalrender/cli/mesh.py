@@ -17,20 +17,21 @@ from pathlib import Path
 import numpy as np
 
 from ..atomic import check_writable
+from ..colormap import PHASE_SCHEMES
 from ..errors import UserInputError
 from ..lattice.memory import require_lattice_memory, surface_bytes_per_point
 from ..mesh.export import length_scale, mesh_suffix
 from ..mesh.pipeline import export_mesh
-from ..mesh.printable import (
+from ..mesh.print_options import (
     BASES,
     DEFAULT_MIN_GAP_MM,
     DEFAULT_MIN_THICKNESS_MM,
     DEFAULT_STRUT_FRACTION,
     PrintOptions,
 )
-from ..picture.colormap import PHASE_SCHEMES
 from ..picture.output import write_report
 from ..state.limits import check_fraction
+from ..state.phase import is_real
 from ..state.units import LENGTH_UNITS_PER_A0
 from .common import add_lattice_arguments, add_state_arguments, box_from_args, lattice_dtype, state_from_args
 
@@ -112,7 +113,7 @@ def run(args: argparse.Namespace) -> int:
     if args.printable or args.parts:
         options = PrintOptions(args.min_thickness_mm, args.min_gap_mm, args.strut_fraction,
                                "none" if args.cutaway else args.base, args.cutaway)
-    if args.split == "sign" and not state.is_real:
+    if args.split == "sign" and not is_real(state):
         raise UserInputError("--split sign needs a real state (psi real up to one global phase); "
                              "use --split phase for a complex state")
     from ..surface.extract import sample_for_surface, surface_at_level  # the surface step

@@ -13,8 +13,10 @@ import math
 from pathlib import Path
 
 from ..atomic import check_writable
+from ..colormap import PHASE_SCHEMES
 from ..errors import UserInputError
-from ..picture.colormap import PHASE_SCHEMES
+from ..picture.density import DENSITY_SCALES
+from ..picture.nodal import section_lines
 from ..picture.output import (
     check_dpi,
     check_output_paths,
@@ -22,16 +24,9 @@ from ..picture.output import (
     save_figure,
     write_report,
 )
-from ..picture.section import (
-    DENSITY_SCALES,
-    MAX_PIXELS,
-    MIN_PIXELS,
-    PLANE_NAMES,
-    cross_section,
-    plane,
-    section_figure,
-    section_metadata,
-)
+from ..picture.plane import MAX_PIXELS, MIN_PIXELS, PLANE_NAMES, plane
+from ..picture.section import cross_section
+from ..picture.section_figure import section_figure, section_metadata
 from ..state.limits import check_fraction
 from .common import (
     add_field_arguments,
@@ -139,10 +134,10 @@ def run(args: argparse.Namespace) -> int:
         check_writable(out)
     section = cross_section(source, where, args.extent, args.pixels,
                             None if args.no_contour else args.fraction)
-    fig = section_figure(section, args.phase_map, args.scale, args.decades, args.units,
-                         nodes=not args.no_nodes, title=args.title, label=label)
-    metadata = section_metadata(section, args.phase_map, args.scale, args.decades, args.units,
-                                not args.no_nodes, source=args.field, dpi=args.dpi)
+    lines = section_lines(section, nodes=not args.no_nodes)
+    style = dict(scheme=args.phase_map, scale=args.scale, decades=args.decades, units=args.units)
+    fig = section_figure(section, lines, **style, title=args.title, label=label)
+    metadata = section_metadata(section, lines, **style, source=args.field, dpi=args.dpi)
     save_figure(fig, out, metadata, dpi=args.dpi)
     if args.report:
         write_report(args.report, metadata | {"file": str(out)})

@@ -27,17 +27,20 @@ from pathlib import Path, PurePosixPath
 from typing import Any
 
 from ..cli.radial import parse_quantities
+from ..colormap import PHASE_SCHEMES
 from ..errors import UserInputError
 from ..lattice.sampler import PRECISIONS
-from ..mesh.printable import BASES
-from ..picture.colormap import PHASE_SCHEMES
+from ..mesh.print_options import BASES
+from ..picture.camera import PROJECTIONS, Camera
+from ..picture.cutaway import parse_cutaway
+from ..picture.density import DENSITY_SCALES
 from ..picture.layout import shell_states
 from ..picture.output import DPI_RANGE, check_dpi
-from ..picture.render3d import PROJECTIONS, Camera, parse_cutaway
-from ..picture.section import DENSITY_SCALES, MAX_PIXELS, MIN_PIXELS, PLANE_NAMES, plane
+from ..picture.plane import MAX_PIXELS, MIN_PIXELS, PLANE_NAMES, plane
 from ..state.limits import FRACTION_MAX, Z_RANGE
 from ..state.model import State
 from ..state.notation import parse_state
+from ..state.phase import is_real
 from ..state.units import LENGTH_UNITS_PER_A0, femtoseconds_to_au, nucleus_reduced_mass_ratio
 
 __all__ = ["KINDS", "SCHEMA", "TOP_KEYS", "ConfigError", "OutputSpec", "GalleryConfig",
@@ -469,8 +472,11 @@ def _check_together(opts: dict, kind: str, file: str, states: tuple[State, ...],
                                         "are written as they are)")
             if file.lower().endswith(".stl"):
                 raise bad("split_sign", "needs a file format that keeps bodies apart: .glb, .ply or .obj")
-            if states and not states[0].is_real:
+            if states and not is_real(states[0]):
                 raise bad("split_sign", "needs a real state (psi real up to one global phase)")
+    if opts.get("phase_map") == "sign" and not all(is_real(s) for s in states):
+        raise bad("phase_map", "cannot be 'sign' for a complex state (psi not real up to one "
+                               "global phase): use 'uniform' or 'cvd'")
     if kind == "figure" and opts.get("nodal_axis") and states:
         st = states[0]
         if not st.is_single_centre or any(t.m == 0 for t in st.terms):

@@ -369,7 +369,8 @@ def option(spec: OutputSpec, key: str) -> Any:
 
 
 def _render_options(work: _Work) -> dict[str, Any]:
-    from ..picture.render3d import Camera, parse_cutaway
+    from ..picture.camera import Camera
+    from ..picture.cutaway import parse_cutaway
 
     o = work.spec.options
     camera = Camera(option(work.spec, "azimuth_deg"), option(work.spec, "elevation_deg"),
@@ -412,8 +413,8 @@ def _save(work: _Work, fig, path: Path, metadata: dict) -> tuple[dict, Callable[
 
 @_drawer("figure")
 def _draw_figure(work: _Work, path: Path):
+    from ..picture.compose import figure_3d
     from ..picture.output import figure_metadata
-    from ..picture.render3d import figure_3d
 
     surface = work.surfaces()[0]
     size = work.caps.size(work.spec.options.get("width_px", _FIGURE_SIZE[0]),
@@ -436,7 +437,7 @@ _PANEL_PX = 380
 
 
 def _layout_size(work: _Work, count: int, ncols: int) -> tuple[int, int]:
-    from ..picture.render3d import fit_geometry
+    from ..picture.compose import fit_geometry
 
     o = work.spec.options
     if "width_px" in o and "height_px" in o:
@@ -451,9 +452,9 @@ def _layout_size(work: _Work, count: int, ncols: int) -> tuple[int, int]:
 
 @_drawer("layout")
 def _draw_layout(work: _Work, path: Path):
+    from ..picture.compose import surface_title
     from ..picture.layout import default_columns, small_multiples
     from ..picture.output import figure_metadata
-    from ..picture.render3d import surface_title
 
     o = work.spec.options
     surfaces = work.surfaces()
@@ -483,7 +484,10 @@ def _draw_layout(work: _Work, path: Path):
 def _draw_section(work: _Work, path: Path):
     from dataclasses import replace
 
-    from ..picture.section import cross_section, plane, section_figure, section_metadata
+    from ..picture.nodal import section_lines
+    from ..picture.plane import plane
+    from ..picture.section import cross_section
+    from ..picture.section_figure import section_figure, section_metadata
 
     o = work.spec.options
     where = plane(o.get("normal") or o.get("plane", "xz"), option(work.spec, "offset_a0"))
@@ -497,11 +501,12 @@ def _draw_section(work: _Work, path: Path):
         section = replace(section, level=level.level, fraction_requested=level.fraction_requested,
                           fraction_enclosed=level.fraction_enclosed,
                           fraction_error=level.fraction_error, level_method=level.method)
-    nodes = o.get("nodes", True)
-    style = (work.opt("phase_map"), work.opt("scale"), work.opt("decades"), work.opt("units"), nodes)
+    lines = section_lines(section, nodes=o.get("nodes", True))
+    style = dict(scheme=work.opt("phase_map"), scale=work.opt("scale"), decades=work.opt("decades"),
+                 units=work.opt("units"))
     label = state.label if state is not None else Path(o["field"]).stem
-    fig = section_figure(section, *style[:4], nodes=nodes, title=o.get("title"), label=label)
-    md = section_metadata(section, *style, source=o.get("field"), dpi=work.opt("dpi"))
+    fig = section_figure(section, lines, **style, title=o.get("title"), label=label)
+    md = section_metadata(section, lines, **style, source=o.get("field"), dpi=work.opt("dpi"))
     return _save(work, fig, path, md)
 
 
@@ -526,8 +531,8 @@ def _quantity_text(value: str | list[str]) -> str:
 def _render_thumbnail(surface: Surface, phase_map: str) -> Callable[[Path], None]:
     """A thumbnail maker that renders `surface` small with the project's renderer (for meshes)."""
     def make(target: Path) -> None:
+        from ..picture.compose import figure_3d
         from ..picture.output import save_figure
-        from ..picture.render3d import figure_3d
 
         fig, _ = figure_3d(surface, THUMBNAIL_PX, THUMBNAIL_PX, dpi=100.0, title="", legend=False,
                            scale_bar=False, phase_map=phase_map, supersample=2)
@@ -536,7 +541,7 @@ def _render_thumbnail(surface: Surface, phase_map: str) -> Callable[[Path], None
 
 
 def _mesh_print_options(work: _Work):
-    from ..mesh.printable import PrintOptions
+    from ..mesh.print_options import PrintOptions
 
     cut = work.spec.options.get("print_cutaway", False)
     return PrintOptions(work.opt("min_thickness_mm"), work.opt("min_gap_mm"), work.opt("strut_fraction"),

@@ -8,7 +8,7 @@ import numpy as np
 
 __all__ = ["MemoryLimitError", "available_bytes", "sampling_bytes", "largest_resolution",
            "require_lattice_memory", "require_bytes", "surface_bytes_per_point", "surface_bytes",
-           "render_bytes", "require_surface_memory", "require_render_memory"]
+           "require_surface_memory", "usable_bytes", "GIB"]
 
 # Bytes per lattice point that the sampler may need on top of the output array: a
 # margin of 1/8 of the output plus the chunk temporaries of the slab-by-slab path,
@@ -25,19 +25,8 @@ _SAFETY = 0.8  # use at most 80 % of what the operating system says is free (com
 # (complex64) and 7.1 B (complex128) at 160^3, and benchmarks/big_lattice.py shows 5.2 B
 # of RSS growth at 512^3.  Kept as the bound so a later change of the step stays covered.
 _SURFACE_FIELD_BYTES = 4
-# Renderer buffers per supersampled pixel: z-buffer (float64), triangle index (int32),
-# barycentric weights (3 float32), linear colour (3 float32), depth, alpha and masks.
-# Measured with tracemalloc at 800 x 600 px: 37 B without a cutaway, 87 B with one (the
-# cap rays and a copy of the depth); rounded up to leave room for a second layer.
-_RENDER_BYTES_PER_SAMPLE = 48
-_RENDER_CUTAWAY_BYTES_PER_SAMPLE = 96
-# ... and per output pixel: the downsampled colour, sRGB conversion, RGBA image and the
-# matplotlib canvas of the composed figure (measured about 110 B at 400 x 300 px, ss = 1).
-# An opaque scene without cut, translucency or axis line is rendered band by band with
-# buffers of a few rows only: 46-68 B per output pixel measured at 800 x 600 px for
-# supersampling 2 to 4, so only this per-pixel term applies to it.
-_RENDER_BYTES_PER_PIXEL = 160
-_GIB = 2**30
+#: Bytes in a GiB, for messages.
+GIB = 2**30
 
 
 class MemoryLimitError(MemoryError):
@@ -93,25 +82,8 @@ def surface_bytes(shape: tuple[int, ...], dtype=np.complex64) -> int:
     return int(np.prod(shape, dtype=np.float64) * surface_bytes_per_point(dtype))
 
 
-def render_bytes(width_px: int, height_px: int, supersample: int = 3, cutaway: bool = False,
-                 banded: bool = False) -> int:
-    """Peak bytes of one shaded render of `width_px` x `height_px` at `supersample`^2 samples
-    per pixel, composed into a figure (the surface mesh itself excluded).  `banded`: the
-    renderer's band-by-band path (opaque, no cut, no translucency, no axis line).
-
-    Examples
-    --------
-    >>> round(render_bytes(900, 800, 3) / 2**20), round(render_bytes(900, 800, 3, banded=True) / 2**20)
-    (406, 110)
-    """
-    pixels = float(width_px) * float(height_px)
-    if banded and not cutaway:
-        return int(pixels * _RENDER_BYTES_PER_PIXEL)
-    per_sample = _RENDER_CUTAWAY_BYTES_PER_SAMPLE if cutaway else _RENDER_BYTES_PER_SAMPLE
-    return int(pixels * (supersample**2 * per_sample + _RENDER_BYTES_PER_PIXEL))
-
-
-def _budget() -> int:
+def usable_bytes() -> int:
+    """Memory a request may use now: a share of :func:`available_bytes`."""
     return int(available_bytes() * _SAFETY)
 
 
@@ -119,24 +91,6 @@ def require_surface_memory(shape: tuple[int, ...], dtype=np.complex64) -> None:
     """Raise MemoryLimitError if the surface step on an existing lattice would not fit now."""
     require_bytes(surface_bytes(shape, dtype),
                   f"the surface of a {'x'.join(map(str, shape))} lattice")
-
-
-def require_render_memory(width_px: int, height_px: int, supersample: int = 3,
-                          cutaway: bool = False, banded: bool = False) -> None:
-    """Raise MemoryLimitError, naming the estimate and what would fit, if a render of this
-    size would not fit now (see :func:`render_bytes` for `banded`)."""
-    budget = _budget()
-    needed = render_bytes(width_px, height_px, supersample, cutaway, banded)
-    if needed <= budget:
-        return
-    fits = [k for k in range(supersample - 1, 0, -1)
-            if render_bytes(width_px, height_px, k, cutaway, banded) <= budget]
-    scale = (budget / needed) ** 0.5
-    hint = (f"supersampling {fits[0]} fits" if fits else
-            f"about {int(width_px * scale)} x {int(height_px * scale)} px fits")
-    raise MemoryLimitError(
-        f"a {width_px} x {height_px} px render at supersampling {supersample} needs about "
-        f"{needed / _GIB:.1f} GiB but only {budget / _GIB:.1f} GiB can be used; {hint}")
 
 
 def require_lattice_memory(resolution: int, dtype=np.complex64, chunk_bytes: int = 0,
@@ -151,19 +105,19 @@ def require_lattice_memory(resolution: int, dtype=np.complex64, chunk_bytes: int
     def need(n: int, dtype=dtype, chunk_bytes=chunk_bytes) -> int:
         return sampling_bytes(n, dtype, chunk_bytes) + int(extra_bytes_per_point * n**3)
 
-    budget = _budget()
+    budget = usable_bytes()
     needed = need(resolution)
     if needed > budget:
         largest = largest_resolution(budget, need)
         raise MemoryLimitError(
-            f"a {resolution}^3 {what} needs about {needed / _GIB:.1f} GiB but only "
-            f"{budget / _GIB:.1f} GiB can be used; the largest resolution that fits is {largest}")
+            f"a {resolution}^3 {what} needs about {needed / GIB:.1f} GiB but only "
+            f"{budget / GIB:.1f} GiB can be used; the largest resolution that fits is {largest}")
 
 
 def require_bytes(needed_bytes: int, what: str) -> None:
     """Raise MemoryLimitError, naming `what` and the estimate, if `needed_bytes` would not fit now."""
-    budget = _budget()
+    budget = usable_bytes()
     if needed_bytes > budget:
         raise MemoryLimitError(
-            f"{what} needs about {needed_bytes / _GIB:.1f} GiB but only "
-            f"{budget / _GIB:.1f} GiB can be used")
+            f"{what} needs about {needed_bytes / GIB:.1f} GiB but only "
+            f"{budget / GIB:.1f} GiB can be used")

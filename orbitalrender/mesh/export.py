@@ -19,8 +19,9 @@ import numpy as np
 import trimesh
 
 from ..atomic import atomic_path
+from ..colormap import PHASE_SCHEMES, psi_to_rgb
 from ..errors import UserInputError
-from ..picture.colormap import PHASE_SCHEMES, psi_to_rgb, real_rotation
+from ..state.phase import sign_rotation
 from ..state.units import a0_to
 from ..surface.model import Surface
 from ..surface.topology import topology
@@ -90,14 +91,14 @@ def length_scale(vertices_a0: np.ndarray, units: str = "a0",
     return size_mm / extent, "mm"
 
 
-def surface_mesh(surface: Surface, factor: float = 1.0, scheme: str = "uniform",
-                 rotation: complex | None = None) -> trimesh.Trimesh:
+def surface_mesh(surface: Surface, factor: float = 1.0, scheme: str = "uniform") -> trimesh.Trimesh:
     """The surface as a trimesh mesh with coordinates times `factor`, phase colours
     (``visual.vertex_colors``, RGBA uint8) and vertex attributes ``phase`` (rad) and
     ``density`` (|psi|^2, a0^-3).
 
-    `rotation` is the global phase removed before the ``"sign"`` map (default:
-    :func:`~orbitalrender.picture.colormap.real_rotation` of the surface's psi).
+    Before the ``"sign"`` map the global phase is removed by the one rule of
+    :func:`orbitalrender.state.phase.sign_rotation` (a complex state is refused), so the
+    colours agree with the sign map of figures and sections.
 
     Examples
     --------
@@ -112,8 +113,7 @@ def surface_mesh(surface: Surface, factor: float = 1.0, scheme: str = "uniform",
     """
     if scheme not in PHASE_SCHEMES:
         raise UserInputError(f"unknown phase colour map {scheme!r}: use one of {', '.join(PHASE_SCHEMES)}")
-    if scheme == "sign" and rotation is None:
-        rotation = real_rotation(surface.psi)
+    rotation = sign_rotation(surface.state, surface.psi) if scheme == "sign" else 1.0 + 0.0j
     rgb = psi_to_rgb(surface.psi, scheme, rotation=rotation)
     rgba = np.empty((len(rgb), 4), dtype=np.uint8)
     rgba[:, :3] = np.clip(np.round(rgb * 255.0), 0, 255)

@@ -18,16 +18,9 @@ from ..errors import UserInputError
 from ..lattice.grid import Lattice
 from ..surface.model import Surface
 from .export import length_scale, mesh_suffix, surface_mesh, surface_report, write_bodies
-from .printable import (
-    PrintOptions,
-    make_printable,
-    phase_band_surfaces,
-    require_single_solid,
-    single_solid_problems,
-    solid_parts,
-    split_by_sign,
-    thin_spots,
-)
+from .print_options import PrintOptions
+from .printable import make_printable, require_single_solid, single_solid_problems, solid_parts, thin_spots
+from .split import phase_band_surfaces, split_by_sign
 
 __all__ = ["export_mesh", "sibling_path", "SPLITS"]
 
@@ -77,7 +70,7 @@ def export_mesh(surface: Surface, path: str | os.PathLike, *, units: str = "a0",
     size_mm : float, optional
         Scale so the largest side of the bounding box is this many millimetres.
     phase_map : str
-        Vertex colour scheme (see :mod:`orbitalrender.picture.colormap`).
+        Vertex colour scheme (see :mod:`orbitalrender.colormap`).
     printable : PrintOptions, optional
         Join the pieces into one checked solid with struts and a base (needs `size_mm`).
     parts : bool
@@ -124,9 +117,6 @@ def export_mesh(surface: Surface, path: str | os.PathLike, *, units: str = "a0",
     if split and (printable is not None or parts):
         raise UserInputError("a split writes bodies for multi-material printing and cannot be "
                              "combined with a printable model or parts")
-    if split == "sign" and surface.state is not None and not surface.state.is_real:
-        raise UserInputError("a sign split needs a real state (psi real up to one global phase); "
-                             "split by phase for a complex state")
     if split == "phase" and lattice is None:
         raise UserInputError("a phase split needs the lattice the surface came from")
     with output_set():
@@ -173,7 +163,7 @@ def _export(surface: Surface, path: Path, suffix: str, units: str, size_mm: floa
         }
     elif split:
         if split == "sign":
-            named = split_by_sign(mesh, surface.psi)
+            named = split_by_sign(mesh, surface.psi, state=surface.state)
         else:
             named = {f"band{k + 1}": surface_mesh(b, factor, phase_map)
                      for k, b in enumerate(phase_band_surfaces(lattice, surface.level, bands))}

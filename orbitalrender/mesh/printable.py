@@ -42,73 +42,25 @@ from scipy.sparse.csgraph import connected_components
 from scipy.spatial import cKDTree
 
 from ..errors import UserInputError
-from ..lattice.grid import Lattice
-from ..picture.colormap import real_rotation
-from ..surface.extract import _interpolated_psi, _march, _touches_boundary, vertex_normals
-from ..surface.model import Surface
 from .bodies import concatenate, face_components, submesh
 from .export import SUPPORT_RGBA
+from .print_options import DEFAULT_PRINT_OPTIONS, PrintOptions
 
 __all__ = [
-    "PrintOptions",
     "Support",
     "ThinSpots",
     "PrintedModel",
-    "BASES",
     "solid_parts",
     "make_printable",
     "single_solid_problems",
     "require_single_solid",
     "thin_spots",
-    "split_by_sign",
-    "phase_band_surfaces",
 ]
 
-BASES = ("disc", "plate", "none")
-#: Minimum wall thickness, mm: common practice for fused-filament printers with a 0.4 mm nozzle
-#: (two to three extrusion widths).
-DEFAULT_MIN_THICKNESS_MM = 1.0
-#: Narrowest gap that stays open, mm: common practice for fused-filament printing (narrower gaps fuse).
-DEFAULT_MIN_GAP_MM = 0.5
-#: Strut diameter as a fraction of the model's largest extent (our choice: visible but slight).
-DEFAULT_STRUT_FRACTION = 0.05
 #: Facets around a strut or disc (our choice: smooth at print sizes of a few centimetres).
 _SECTIONS = 32
 #: Diameter of the ball at a strut junction relative to the strut (our choice: covers the joint).
 _JOINT_RATIO = 1.5
-
-
-@dataclass(frozen=True)
-class PrintOptions:
-    """How to prepare a model for printing; lengths in mm.
-
-    Attributes
-    ----------
-    min_thickness_mm : float
-        Walls thinner than this are reported; struts are at least this thick.
-    min_gap_mm : float
-        Gaps narrower than this are reported.
-    strut_fraction : float
-        Strut diameter as a fraction of the model's largest extent.
-    base : str
-        ``"disc"``, ``"plate"`` or ``"none"``.
-    cutaway : bool
-        Remove the half y > 0 to open nested shells; lays the model on the cut face.
-    """
-
-    min_thickness_mm: float = DEFAULT_MIN_THICKNESS_MM
-    min_gap_mm: float = DEFAULT_MIN_GAP_MM
-    strut_fraction: float = DEFAULT_STRUT_FRACTION
-    base: str = "disc"
-    cutaway: bool = False
-
-    def __post_init__(self) -> None:
-        for name in ("min_thickness_mm", "min_gap_mm", "strut_fraction"):
-            value = getattr(self, name)
-            if not (value > 0 and math.isfinite(value)):
-                raise UserInputError(f"{name.replace('_', ' ')} must be a positive number, got {value:g}")
-        if self.base not in BASES:
-            raise UserInputError(f"unknown base {self.base!r}: use one of {', '.join(BASES)}")
 
 
 @dataclass(frozen=True)
@@ -347,7 +299,7 @@ def _weld(vertices: np.ndarray, faces: np.ndarray, tolerance: float) -> trimesh.
     return mesh
 
 
-def make_printable(mesh_mm: trimesh.Trimesh, options: PrintOptions = PrintOptions()) -> PrintedModel:
+def make_printable(mesh_mm: trimesh.Trimesh, options: PrintOptions = DEFAULT_PRINT_OPTIONS) -> PrintedModel:
     """Join the pieces of a closed surface mesh (in mm) into one solid with struts and a base.
 
     Parameters
@@ -581,86 +533,3 @@ def thin_spots(mesh: trimesh.Trimesh, limit_mm: float, kind: str = "wall", sampl
     return ThinSpots(kind, float(limit_mm), int(len(index)), int(len(under)),
                      float(finite.min()) if len(finite) else None,
                      tuple(tuple(float(c) for c in mesh.vertices[index[k]]) for k in worst))
-
-
-def split_by_sign(mesh: trimesh.Trimesh, psi: np.ndarray) -> dict[str, trimesh.Trimesh]:
-    """Bodies of a real state's surface by the sign of psi: ``{"positive": ..., "negative": ...}``.
-
-    Each closed component has one sign (psi cannot change sign on a connected piece of
-    {|psi|^2 >= level} without passing through zero); the global phase is removed
-    first with :func:`~orbitalrender.picture.colormap.real_rotation`, taken with a
-    non-negative real part so that a psi that is real as given keeps its own sign.
-    A sign with no component is left out.
-
-    Parameters
-    ----------
-    mesh : trimesh.Trimesh
-        The surface mesh, vertices in the same order as `psi`.
-    psi : ndarray, complex, (V,)
-    """
-    u = real_rotation(psi)
-    if u.real < 0 or (u.real == 0 and u.imag < 0):  # psi = +-|psi| as given keeps its own sign
-        u = -u
-    real = (np.asarray(psi) * np.conj(u)).real
-    groups: dict[str, list[np.ndarray]] = {"positive": [], "negative": []}
-    for faces in face_components(mesh):
-        vertices = np.unique(mesh.faces[faces])
-        groups["positive" if real[vertices].sum() >= 0 else "negative"].append(faces)
-    return {name: submesh(mesh, np.concatenate(g)) for name, g in groups.items() if g}
-
-
-def phase_band_surfaces(lattice: Lattice, level: float, bands: int) -> list[Surface]:
-    """Closed bodies of {|psi|^2 >= level} cut by phase into `bands` equal bands, one Surface each.
-
-    Band k holds the points where arg psi lies within pi / bands of its middle
-    c_k = 2 pi k / bands.  It is the set where both
-
-        |psi| - sqrt(level) >= 0   and   Re(psi e^{-i c_k}) - |psi| cos(pi / bands) >= 0,
-
-    and marching cubes on the smaller of the two (both in a0^-3/2, continuous) gives
-    its closed boundary: the density surface within the band plus the cut faces
-    where the phase reaches the band's edges (marching cubes rounds the sharp edge
-    where the two meet by about one lattice spacing).  psi at the vertices is evaluated
-    exactly when the lattice has a state, else interpolated linearly.
-
-    Parameters
-    ----------
-    lattice : Lattice
-        psi on a lattice that holds the whole surface.
-    level : float
-        Density level, a0^-3.
-    bands : int
-        Number of bands, 2 to 24.
-
-    Returns
-    -------
-    list of Surface
-        One per band that is not empty, in order of c_k.
-    """
-    if not (2 <= int(bands) <= 24):
-        raise UserInputError(f"the number of phase bands must be from 2 to 24, got {bands}")
-    bands = int(bands)
-    values = lattice.values
-    magnitude = np.abs(values).astype(np.float32)
-    cut = np.float32(math.cos(math.pi / bands))
-    inside = magnitude - np.float32(math.sqrt(level))
-    # march a hair above zero: on a lattice symmetric about the axis the band edges
-    # (phase = c_k +- pi / bands) pass exactly through lattice points, where a field value
-    # equal to the level makes marching cubes put several vertices on one point
-    threshold = float(np.float32(1e-4 * math.sqrt(level)))
-    out = []
-    for k in range(bands):
-        centre = 2 * math.pi * k / bands
-        band = (values * np.complex64(np.exp(-1j * centre))).real - magnitude * cut
-        field_ = np.minimum(inside, band.astype(np.float32))
-        if _touches_boundary(field_, threshold):
-            raise UserInputError("the surface reaches the edge of the lattice; use a larger --box")
-        part = _march(field_, threshold, lattice)  # the surface step's marching cubes, outward faces
-        if part is None:
-            continue
-        vertices, faces, _ = part
-        psi = (lattice.state.psi(*vertices.T) if lattice.state is not None
-               else _interpolated_psi(lattice, vertices))
-        out.append(Surface(vertices, faces, vertex_normals(vertices, faces), np.asarray(psi, complex),
-                           level, None, None, None, lattice.shape, lattice.spacing_a0, lattice.state))
-    return out

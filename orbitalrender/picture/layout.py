@@ -21,19 +21,10 @@ from ..lattice.grid import Box
 from ..lattice.sampler import default_box
 from ..state.model import State, eigenstate, real_orbital
 from ..surface.model import Surface
-from .render3d import (
-    DEFAULT_CAMERA,
-    Camera,
-    Render,
-    _as_list,
-    _axis_segment,
-    compose_figure,
-    fit_geometry,
-    frame_camera,
-    has_nodal_axis,
-    render_surfaces,
-    surface_title,
-)
+from .axis import axis_segment, has_nodal_axis
+from .camera import DEFAULT_CAMERA, Camera, as_surfaces, frame_camera
+from .compose import compose_figure, fit_geometry, surface_title
+from .scene import Render, render_surfaces
 
 __all__ = ["shared_cameras", "small_multiples", "time_strip", "shell_states", "default_columns"]
 
@@ -73,9 +64,9 @@ def shared_cameras(groups: Sequence[Sequence[Surface]], camera: Camera = DEFAULT
     -------
     list of Camera
     """
-    lists = [_as_list(g) for g in groups]
+    lists = [as_surfaces(g) for g in groups]
     axis = [nodal_axis] * len(lists) if isinstance(nodal_axis, bool) else list(nodal_axis)
-    extra = [_axis_segment(g) if a else None for g, a in zip(lists, axis)]
+    extra = [axis_segment(g) if a else None for g, a in zip(lists, axis)]
     if shared_target and camera.target_a0 is None:
         pts = np.concatenate([s.vertices_a0 for g in lists for s in g]
                              + [e for e in extra if e is not None])
@@ -103,7 +94,7 @@ def small_multiples(panels: Sequence[Surface | Sequence[Surface]], titles: Seque
     width_px, height_px : int
         Size of the whole figure at `dpi`.
     units, legend, scale_bar, transparent
-        See :func:`orbitalrender.picture.render3d.compose_figure`.
+        See :func:`orbitalrender.picture.compose.compose_figure`.
     camera : Camera
         Common angles, zoom and projection; the half-extent is shared (see
         :func:`shared_cameras`).
@@ -116,7 +107,7 @@ def small_multiples(panels: Sequence[Surface | Sequence[Surface]], titles: Seque
     -------
     (matplotlib.figure.Figure, list of Render)
     """
-    groups = [_as_list(p) for p in panels]
+    groups = [as_surfaces(p) for p in panels]
     if not groups:
         raise ValueError("a layout needs at least one panel")
     if titles is None:

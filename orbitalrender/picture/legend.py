@@ -1,7 +1,7 @@
 """Picture legends: the phase wheel (or sign swatches) and the length scale bar.
 
 Pure drawing functions: each takes matplotlib axes and draws into them, using
-the colour tables of :mod:`orbitalrender.picture.colormap` (there is no second
+the colour tables of :mod:`orbitalrender.colormap` (there is no second
 colour map here).
 
 The wheel shows phase 0 to the right and increases counter-clockwise, the usual
@@ -16,12 +16,10 @@ import math
 import numpy as np
 from matplotlib.patches import Rectangle
 
-from ..state.units import a0_to
-from .colormap import PHASE_SCHEMES, SIGN_COLOURS, phase_to_rgb
+from ..colormap import PHASE_SCHEMES, phase_to_rgb, sign_colours
+from ..state.units import a0_to, unit_label
 
 __all__ = [
-    "UNIT_LABELS",
-    "unit_label",
     "nice_length",
     "draw_phase_legend",
     "draw_phase_wheel",
@@ -30,25 +28,12 @@ __all__ = [
 ]
 
 #: How each length unit is written on axes and scale bars (matplotlib mathtext).
-UNIT_LABELS: dict[str, str] = {"a0": "$a_0$", "angstrom": "Å", "nm": "nm", "pm": "pm"}
 #: Pixels per side of the wheel image; the annulus edge is smooth at legend sizes.
 _WHEEL_PIXELS = 256
 _CORNERS = ("lower left", "lower right", "upper left", "upper right")
 #: Phase marks of the wheel: (angle in rad, label in mathtext).
 _WHEEL_MARKS = ((0.0, "0"), (0.5 * math.pi, r"$\pi/2$"), (math.pi, r"$\pi$"),
                 (1.5 * math.pi, r"$3\pi/2$"))
-
-
-def unit_label(units: str) -> str:
-    """Axis-label text of a length unit.
-
-    Examples
-    --------
-    >>> unit_label("angstrom")
-    'Å'
-    """
-    a0_to(units)  # raises a clear ValueError for an unknown unit
-    return UNIT_LABELS[units]
 
 
 def nice_length(at_most: float) -> float:
@@ -139,7 +124,7 @@ def draw_sign_swatches(ax, title: str | None = r"sign of $\psi$", fontsize: floa
     """Draw the two tones of the sign scheme into `ax`, labelled + and −.
 
     The sign is that of psi after its global phase is removed
-    (:func:`orbitalrender.picture.colormap.real_rotation`).
+    (:func:`orbitalrender.state.phase.sign_rotation`).
 
     Examples
     --------
@@ -151,7 +136,7 @@ def draw_sign_swatches(ax, title: str | None = r"sign of $\psi$", fontsize: floa
     """
     for row, (key, text) in enumerate((("positive", "+"), ("negative", "\u2212"))):
         y = 0.6 - row * 1.0
-        ax.add_patch(Rectangle((-0.9, y), 0.8, 0.6, facecolor=SIGN_COLOURS[key], edgecolor="0.3",
+        ax.add_patch(Rectangle((-0.9, y), 0.8, 0.6, facecolor=sign_colours()[key], edgecolor="0.3",
                                linewidth=0.5))
         ax.text(0.1, y + 0.3, text, ha="left", va="center", fontsize=fontsize * 1.4)
     _finish(ax, title, fontsize, 0.8, 1.2, (-0.7, 1.5))

@@ -18,6 +18,9 @@ PDF      document information: ``Title``, ``Creator``, ``Keywords`` (short
 Output is deterministic: the same figure and metadata give the same bytes.  No
 creation date is written (PDF ``CreationDate`` and SVG ``Date`` are removed),
 the SVG id salt is fixed, and matplotlib's PNG writer stores no time stamp.
+
+matplotlib is loaded only when a figure is saved, so the checks of output paths and
+:data:`DPI_RANGE` cost no heavy import.
 """
 
 from __future__ import annotations
@@ -30,7 +33,6 @@ from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
 
-import matplotlib as mpl
 import numpy as np
 
 from ..atomic import atomic_path, check_writable
@@ -256,6 +258,8 @@ def save_figure(fig, path: str | os.PathLike, metadata: Mapping[str, Any],
     """
     fmt = figure_format(path)
     info = _format_metadata(fmt, metadata)
+    import matplotlib as mpl
+
     with mpl.rc_context({"svg.hashsalt": _SVG_HASH_SALT}), atomic_path(path) as tmp:
         fig.savefig(tmp, format=fmt, dpi=dpi if dpi is not None else "figure", metadata=info,
                     **savefig_kwargs)

@@ -31,8 +31,7 @@ from ..state.model import State
 from ..state.notation import pretty_label
 from ..state.properties import most_probable_radius, radial_node_radii, shell_of
 from ..state.radial import radial_cumulative, radius_holding
-from ..state.units import a0_to
-from .legend import unit_label
+from ..state.units import a0_to, unit_label
 
 __all__ = [
     "RADIAL_QUANTITIES",

@@ -5,7 +5,7 @@ surfaces (the ring of 3d_z2 passing in front of and behind its lobes) occlude
 each other correctly pixel by pixel.  It does no shading: it returns, for every
 pixel, which triangle is nearest, its depth and the (perspective-correct)
 barycentric weights, and shading is done afterwards on those buffers
-(deferred shading, see :mod:`orbitalrender.picture.render3d`).
+(deferred shading, see :mod:`orbitalrender.picture.scene`).
 
 Clipping for cutaways is done per fragment: each vertex carries K signed plane
 values s_k (positive on the removed side); a fragment is dropped when all K
@@ -83,7 +83,7 @@ def _scan(px, py, zv, w, faces, skip, clip, perspective, width, height,
 def scan_triangle(t, px, py, zv, w, faces, clip, perspective, width, row0, row1,
                   depth, tri, wts):  # pragma: no cover - compiled
     """Draw triangle t into buffers that hold image rows row0 .. row1 - 1 (buffer row j - row0):
-    the whole image, or one band of it (see render3d's banded pass)."""
+    the whole image, or one band of it (see the banded pass of :mod:`orbitalrender.picture.shading`)."""
     n_clip = clip.shape[1]
     i0 = faces[t, 0]
     i1 = faces[t, 1]

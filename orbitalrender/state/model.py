@@ -130,16 +130,6 @@ class State:
         """True when every term has the same energy, so |psi|^2 does not change in time."""
         return len({t.n for t in self.terms}) == 1
 
-    @property
-    def is_real(self) -> bool:
-        """True when psi is real (up to one global phase) at every point at this time."""
-        psi = self.psi(*_probe_points(self))
-        k = int(np.argmax(np.abs(psi)))
-        if abs(psi[k]) == 0:
-            return True
-        rotated = psi * np.conj(psi[k]) / abs(psi[k])
-        return bool(np.all(np.abs(rotated.imag) <= 1e-9 * np.max(np.abs(psi))))
-
     def phase_factors(self) -> np.ndarray:
         """exp(-i E_n t) of every term at `time_au`."""
         return np.array([np.exp(-1j * energy_hartree(t.n, self.Z, self.reduced_mass_ratio)
@@ -177,13 +167,6 @@ class State:
         reach = max(t.n for t in self.terms) ** 2 / (self.Z * self.reduced_mass_ratio)
         offset = max(math.dist(c, _ORIGIN) for c in self.centres_a0)
         return reach + offset
-
-
-def _probe_points(state: State, count: int = 257) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Fixed pseudo-random points spread over the extent of the state."""
-    rng = np.random.default_rng(20261201)
-    p = rng.normal(size=(count, 3)) * state.extent_a0() * 0.5
-    return p[:, 0], p[:, 1], p[:, 2]
 
 
 def _overlap_matrix(terms: Sequence[Term], Z: float, mu: float) -> np.ndarray:

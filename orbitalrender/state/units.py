@@ -22,6 +22,8 @@ __all__ = [
     "nucleus_reduced_mass_ratio",
     "femtoseconds_to_au",
     "a0_to",
+    "UNIT_LABELS",
+    "unit_label",
 ]
 
 HARTREE_EV: float = _pc["Hartree energy in eV"][0]
@@ -101,3 +103,19 @@ def a0_to(unit: str) -> float:
     except KeyError:
         raise ValueError(f"unknown length unit {unit!r}: use one of "
                          f"{', '.join(LENGTH_UNITS_PER_A0)}") from None
+
+
+#: Axis-label text (matplotlib mathtext) of each length unit.
+UNIT_LABELS: dict[str, str] = {"a0": "$a_0$", "angstrom": "Å", "nm": "nm", "pm": "pm"}
+
+
+def unit_label(units: str) -> str:
+    """Axis-label text of a length unit.
+
+    Examples
+    --------
+    >>> unit_label("angstrom")
+    'Å'
+    """
+    a0_to(units)  # raises a clear ValueError for an unknown unit
+    return UNIT_LABELS[units]

@@ -17,7 +17,7 @@ therefore run on a *signed* field wherever the state allows one:
   lattice spacing.)
 * anything else: |psi|, whose zeros are generically lines, not surfaces.
 
-For an analytic state the route follows from its terms (``State.is_real``, one centre
+For an analytic state the route follows from its terms (:func:`orbitalrender.state.phase.is_real`, one centre
 and one m with coefficients of one phase).  For a user field the test is made on the
 lattice: the imaginary part left after the rotation must stay below 1e-3 of sqrt(t)
 everywhere, so that the superlevel sets of f and of |psi| differ by less than that.
@@ -38,6 +38,7 @@ from ..lattice.sampler import check_resolution, sample
 from ..state.hydrogen import radial_function
 from ..state.limits import check_fraction
 from ..state.model import State
+from ..state.phase import is_real
 from .level import LevelResult, level_for_fraction
 from .model import Surface
 
@@ -108,7 +109,7 @@ def _signed_field(lattice: Lattice, amplitude: float) -> tuple[np.ndarray, bool]
         rotate = np.exp(-1j * _peak_phase(v))
         if _rotate_into(v, lambda i: rotate, f, _REAL_TOLERANCE * amplitude):
             return f, True
-    elif state.is_real:
+    elif is_real(state):
         rotate = np.exp(-1j * _peak_phase(v))
         _rotate_into(v, lambda i: rotate, f, None)
         return f, True

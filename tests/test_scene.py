@@ -1,4 +1,4 @@
-"""Tests of the shaded 3D render (orbitalrender.picture.render3d), checked on pixels.
+"""Tests of the shaded 3D render (orbitalrender.picture.scene), checked on pixels.
 
 Outside references: the closed form of the 1s enclosed probability, the sign and
 phase of psi_nlm from the closed forms / scipy.special, pinhole-camera geometry,
@@ -15,18 +15,11 @@ from scipy.optimize import brentq
 from scipy.special import sph_harm_y
 from skimage.color import rgb2lab
 
-from orbitalrender.picture.colormap import phase_to_rgb
-from orbitalrender.picture.render3d import (
-    Camera,
-    Cutaway,
-    compose_figure,
-    figure_3d,
-    fit_geometry,
-    frame_camera,
-    nodal_axis_centre,
-    parse_cutaway,
-    render_surfaces,
-)
+from orbitalrender.colormap import phase_to_rgb
+from orbitalrender.picture.axis import nodal_axis_centre
+from orbitalrender.picture.camera import Camera, frame_camera
+from orbitalrender.picture.cutaway import parse_cutaway
+from orbitalrender.picture.scene import render_bytes, render_path, render_surfaces
 from orbitalrender.state.model import eigenstate, real_orbital
 from orbitalrender.surface.extract import extract_surface
 
@@ -59,14 +52,6 @@ def _world_to_pixel(render, point):
     return int(row), int(col)
 
 
-@pytest.fixture(scope="module")
-def sphere_1s():
-    return extract_surface(eigenstate(1, 0, 0), 0.9, resolution=48)
-
-
-@pytest.fixture(scope="module")
-def lobes_2pz():
-    return extract_surface(real_orbital(2, 1, 0), 0.9, resolution=48)
 
 
 def test_1s_silhouette_radius_matches_the_closed_form(sphere_1s):
@@ -282,24 +267,6 @@ def test_zoom_scales_and_fit_keeps_a_margin(lobes_2pz):
     assert alpha[0].max() == 0 and alpha[-1].max() == 0 and alpha[:, 0].max() == 0
 
 
-def test_cutaway_text():
-    cut = parse_cutaway(" x > 0 & (0,2,0) > 1 ")
-    assert cut.normals == ((1.0, 0.0, 0.0), (0.0, 1.0, 0.0))
-    assert cut.offsets_a0 == (0.0, 0.5)
-    for bad in ("x>", "w>0", "(0,0,0)>1", "x=0"):
-        with pytest.raises(ValueError):
-            parse_cutaway(bad)
-    with pytest.raises(ValueError):
-        Cutaway(((1.0, 0.0, 0.0),), (0.0, 1.0))
-
-
-@pytest.mark.parametrize("kwargs", [dict(projection="fisheye"), dict(elevation_deg=91),
-                                    dict(zoom=0.0), dict(zoom=1e3), dict(azimuth_deg=math.inf)])
-def test_bad_views_are_refused(kwargs):
-    with pytest.raises(ValueError):
-        Camera(**kwargs)
-
-
 def test_bad_render_options_are_refused(sphere_1s):
     for kwargs in (dict(width_px=8), dict(supersample=5), dict(phase_map="rainbow"),
                    dict(translucent_outer=0.0)):
@@ -307,28 +274,12 @@ def test_bad_render_options_are_refused(sphere_1s):
             render_surfaces(sphere_1s, **{"width_px": 64, "height_px": 64, **kwargs})
 
 
-def test_figure_has_the_render_pixel_for_pixel_and_the_maps_legend(sphere_1s):
-    fig, render = figure_3d(sphere_1s, 400, 300, phase_map="cvd")
-    images = [im for ax in fig.axes for im in ax.images]
-    assert any(im.get_array().shape == render.rgba.shape for im in images)
-    wheel = next(im for im in images if im.get_array().shape != render.rgba.shape)
-    rgba = np.asarray(wheel.get_array())
-    n = rgba.shape[0]
-    for theta in (0.0, 1.0, 2.5, 4.0):
-        col = int((0.8 * math.cos(theta) + 1) / 2 * n)
-        row = int((1 - 0.8 * math.sin(theta)) / 2 * n)
-        assert np.allclose(rgba[row, col, :3], phase_to_rgb(theta, "cvd"), atol=0.02)
-    texts = [t.get_text() for ax in fig.axes for t in ax.texts] + [t.get_text() for t in fig.texts]
-    assert any("a_0" in t for t in texts)      # the scale bar's label
-    assert any("F = 0.9" in t for t in texts)  # the title
-    assert fig.get_size_inches() * fig.dpi == pytest.approx([400, 300])
-
-
-def test_compose_refuses_mismatched_panels(sphere_1s):
-    g = fit_geometry(300, 200, 2, 1)
-    a = render_surfaces(sphere_1s, *g.panel_px)
-    b = render_surfaces(sphere_1s, *g.panel_px, camera=replace(SIDE, zoom=2.0))
-    with pytest.raises(ValueError, match="different scales"):
-        compose_figure([a, b], g)
-    with pytest.raises(ValueError, match="does not fit"):
-        compose_figure([render_surfaces(sphere_1s, 50, 50)], g)
+def test_render_path_and_its_memory_estimate():
+    # the estimate must cover the path taken: banded < whole/layered < capped per pixel
+    assert render_path(cutaway=False, nodal_axis=False, translucent_outer=None) == "banded"
+    assert render_path(cutaway=False, nodal_axis=False, translucent_outer=1.0) == "banded"
+    assert render_path(cutaway=False, nodal_axis=True, translucent_outer=None) == "whole"
+    assert render_path(cutaway=False, nodal_axis=True, translucent_outer=0.5) == "layered"
+    assert render_path(cutaway=True, nodal_axis=False, translucent_outer=0.5) == "capped"
+    sizes = [render_bytes(400, 300, 3, p) for p in ("banded", "whole", "capped")]
+    assert sizes[0] < sizes[1] < sizes[2]

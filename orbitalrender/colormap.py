@@ -1,4 +1,8 @@
-"""Phase colour maps: the complex phase of psi as hue, built in CIELAB.
+"""Colour, shared by the picture and mesh steps: the complex phase of psi as hue, built in CIELAB.
+
+This module sits below both :mod:`orbitalrender.picture` and :mod:`orbitalrender.mesh`
+and imports only numpy when loaded (scikit-image is loaded when a table is first built),
+so option definitions can read :data:`PHASE_SCHEMES` cheaply.
 
 Three schemes, all of our own construction:
 
@@ -13,7 +17,7 @@ Three schemes, all of our own construction:
     still distinguishable under the common red-green colour-vision deficiencies.
 ``"sign"``
     Two tones for real states: one for psi > 0, one for psi < 0 (after removing
-    the state's global phase, see :func:`real_rotation`).
+    the state's global phase, see :mod:`orbitalrender.state.phase`).
 
 References
 ----------
@@ -27,8 +31,6 @@ from __future__ import annotations
 from functools import cache
 
 import numpy as np
-from skimage.color import lab2rgb, lab2xyz
-from skimage.color.colorconv import rgb_from_xyz
 
 __all__ = [
     "PHASE_SCHEMES",
@@ -36,8 +38,7 @@ __all__ = [
     "phase_lut",
     "phase_to_rgb",
     "psi_to_rgb",
-    "real_rotation",
-    "SIGN_COLOURS",
+    "sign_colours",
     "srgb_to_linear",
     "linear_to_srgb",
 ]
@@ -48,15 +49,31 @@ LUT_SIZE = 720
 #: CIELAB hue angle (degrees) at phase 0: a warm red-orange, our own choice.
 _HUE_AT_ZERO_DEG = 30.0
 
-#: The two tones of the sign map, in sRGB: positive a warm orange, negative a mid blue.
-SIGN_COLOURS = {
-    "positive": tuple(float(c) for c in lab2rgb(np.array([[[68.0, 30.0, 62.0]]]))[0, 0]),
-    "negative": tuple(float(c) for c in lab2rgb(np.array([[[52.0, 0.0, -48.0]]]))[0, 0]),
-}
+#: The two tones of the sign map in CIELAB (L*, a*, b*): positive a warm orange, negative a
+#: mid blue (our choice).
+_SIGN_LAB = {"positive": (68.0, 30.0, 62.0), "negative": (52.0, 0.0, -48.0)}
+
+
+@cache
+def sign_colours() -> dict[str, tuple[float, float, float]]:
+    """The two tones of the sign map in sRGB, keyed ``"positive"`` and ``"negative"``.
+
+    Examples
+    --------
+    >>> sorted(sign_colours())
+    ['negative', 'positive']
+    """
+    from skimage.color import lab2rgb
+
+    return {key: tuple(float(c) for c in lab2rgb(np.array([[lab]]))[0, 0])
+            for key, lab in _SIGN_LAB.items()}
 
 
 def _lab_in_gamut(lab: np.ndarray) -> np.ndarray:
     """True where CIELAB colours lie inside the sRGB gamut (linear RGB in [0, 1], tolerance 1e-4)."""
+    from skimage.color import lab2xyz
+    from skimage.color.colorconv import rgb_from_xyz
+
     linear = lab2xyz(lab.reshape(1, -1, 3)).reshape(-1, 3) @ rgb_from_xyz.T
     return np.all((linear >= -1e-4) & (linear <= 1 + 1e-4), axis=1)
 
@@ -120,11 +137,13 @@ def phase_lut(scheme: str = "uniform") -> np.ndarray:
         # phase in (-pi/2, pi/2) is positive, the rest negative
         k = np.arange(LUT_SIZE)
         positive = (k < LUT_SIZE // 4) | (k >= 3 * LUT_SIZE // 4)
-        rgb[positive] = SIGN_COLOURS["positive"]
-        rgb[~positive] = SIGN_COLOURS["negative"]
+        rgb[positive] = sign_colours()["positive"]
+        rgb[~positive] = sign_colours()["negative"]
         return rgb
     else:
         raise ValueError(f"unknown phase colour scheme {scheme!r}: use one of {', '.join(PHASE_SCHEMES)}")
+    from skimage.color import lab2rgb
+
     return np.clip(lab2rgb(lab.reshape(1, -1, 3)).reshape(-1, 3), 0.0, 1.0)
 
 
@@ -150,38 +169,13 @@ def phase_to_rgb(phase_rad: np.ndarray, scheme: str = "uniform") -> np.ndarray:
     return (1.0 - frac) * lut[i0] + frac * lut[(i0 + 1) % LUT_SIZE]
 
 
-def real_rotation(psi: np.ndarray) -> complex:
-    """Unit phasor u such that psi * conj(u) is as real as possible (largest sum of Re^2).
-
-    For a real orbital multiplied by any global phase this recovers that phase
-    (up to a sign, fixed so the value of largest magnitude comes out positive).
-
-    Examples
-    --------
-    >>> import numpy as np
-    >>> psi = np.array([1.0, -2.0, 0.5]) * np.exp(0.7j)
-    >>> u = real_rotation(psi)
-    >>> bool(np.allclose((psi * np.conj(u)).imag, 0))
-    True
-    """
-    psi = np.asarray(psi, dtype=complex).ravel()
-    s = np.sum(psi * psi)
-    if abs(s) == 0:
-        return 1.0 + 0.0j
-    u = np.exp(0.5j * np.angle(s))
-    k = int(np.argmax(np.abs(psi)))
-    if (psi[k] * np.conj(u)).real < 0:
-        u = -u
-    return complex(u)
-
-
-def psi_to_rgb(psi: np.ndarray, scheme: str = "uniform", rotation: complex | None = None) -> np.ndarray:
-    """Colours for complex psi values: hue from arg psi (``"sign"``: from the sign after
-    removing `rotation`, by default :func:`real_rotation` of these values)."""
+def psi_to_rgb(psi: np.ndarray, scheme: str = "uniform", rotation: complex = 1.0 + 0.0j) -> np.ndarray:
+    """Colours for complex psi values: hue from arg psi (``"sign"``: from the sign of
+    psi * conj(`rotation`), the global phase removed by
+    :func:`orbitalrender.state.phase.sign_rotation`)."""
     psi = np.asarray(psi, dtype=complex)
     if scheme == "sign":
-        u = real_rotation(psi) if rotation is None else rotation
-        return phase_to_rgb(np.angle(psi * np.conj(u)), "sign")
+        return phase_to_rgb(np.angle(psi * np.conj(rotation)), "sign")
     return phase_to_rgb(np.angle(psi), scheme)
 
 
