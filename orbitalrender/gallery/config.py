@@ -37,7 +37,7 @@ from ..picture.density import DENSITY_SCALES
 from ..picture.layout import shell_states
 from ..picture.output import DPI_RANGE, check_dpi
 from ..picture.plane import MAX_PIXELS, MIN_PIXELS, PLANE_NAMES, plane
-from ..state.limits import FRACTION_MAX, Z_RANGE
+from ..state.limits import FRACTION_MAX, SIZE_MM_RANGE, Z_RANGE
 from ..state.model import State
 from ..state.notation import parse_state
 from ..state.phase import is_real
@@ -317,7 +317,7 @@ SCHEMA: dict[str, Key] = {k.name: k for k in [
     _K("quantity", ("radial",), _by(_quantities, lambda v: parse_quantities(",".join(v))),
        "'all', or one or a list of 'R', 'density', 'cumulative'"),
     # meshes
-    _K("size_mm", ("mesh",), _number(0, 10000, lo_open=True), _range_text("number", 0, 10000, lo_open=True)),
+    _K("size_mm", ("mesh",), _number(*SIZE_MM_RANGE), _range_text("number", *SIZE_MM_RANGE)),
     _K("printable", ("mesh",), _boolean, "true or false"),
     _K("base", ("mesh",), _choice(BASES), _choice_text(BASES)),
     _K("print_cutaway", ("mesh",), _boolean, "true or false"),

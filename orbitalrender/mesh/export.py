@@ -10,7 +10,6 @@ and checked by reloading it with trimesh before it replaces an earlier file.
 
 from __future__ import annotations
 
-import math
 import os
 from collections.abc import Callable, Sequence
 from pathlib import Path
@@ -21,6 +20,7 @@ import trimesh
 from ..atomic import atomic_path
 from ..colormap import PHASE_SCHEMES, psi_to_rgb
 from ..errors import UserInputError
+from ..state.limits import SIZE_MM_RANGE
 from ..state.phase import sign_rotation
 from ..state.units import a0_to
 from ..surface.model import Surface
@@ -83,8 +83,10 @@ def length_scale(vertices_a0: np.ndarray, units: str = "a0",
         except ValueError as exc:
             raise UserInputError(str(exc)) from None
     size_mm = float(size_mm)
-    if not (size_mm > 0 and math.isfinite(size_mm)):
-        raise UserInputError(f"the printed size must be a positive number of millimetres, got {size_mm:g}")
+    lo, hi = SIZE_MM_RANGE  # (sizes outside once overflowed or divided by zero downstream)
+    if not lo <= size_mm <= hi:
+        raise UserInputError(f"the printed size must be {lo:g} to {hi:g} millimetres (no printer makes "
+                             f"a smaller or larger object), got {size_mm:g}")
     extent = float(np.max(np.ptp(vertices_a0, axis=0))) if len(vertices_a0) else 0.0
     if extent <= 0:
         raise UserInputError("the surface has no extent to scale")

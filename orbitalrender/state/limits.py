@@ -12,8 +12,8 @@ import math
 from ..errors import UserInputError
 
 __all__ = ["Z_RANGE", "N_MAX", "NUCLEUS_MASS_RATIO_MIN", "REDUCED_MASS_RATIO_RANGE", "CENTRE_MAX_A0",
-           "FRACTION_MAX", "check_z", "check_n", "check_nucleus_mass_ratio", "check_reduced_mass_ratio",
-           "check_centre", "check_fraction", "check_finite"]
+           "FRACTION_MAX", "SIZE_MM_RANGE", "check_z", "check_n", "check_nucleus_mass_ratio",
+           "check_reduced_mass_ratio", "check_centre", "check_fraction", "check_finite"]
 
 #: Nuclear charge Z (units of e).  Above Z = 137 (Z alpha > 1, fine-structure constant
 #: alpha ~ 1/137) the Dirac equation of a point nucleus has no normalisable 1s state, so
@@ -35,6 +35,10 @@ REDUCED_MASS_RATIO_RANGE = (0.5, 1.0e4)
 #: that holds a centre 1e4 a0 away and the origin has a step of several a0 at any
 #: resolution that fits in memory, far coarser than the orbitals it should show.
 CENTRE_MAX_A0 = 1.0e4
+#: Printed size of a whole model, mm (used by the mesh step; kept here with the other
+#: ranges): below 0.1 mm an object is finer than the nozzle or pixel of any common
+#: printer, and 10 m bounds the largest build volumes (common practice).
+SIZE_MM_RANGE = (0.1, 10000.0)
 #: Largest enclosed fraction F.  The level quadratures (surface/level.py) give the
 #: enclosed probability to about 1e-5, so 1 - F must stay ten times above that for the
 #: surface to be the F surface and not the quadrature's round-off.
