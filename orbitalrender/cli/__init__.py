@@ -14,6 +14,7 @@ import importlib
 import os
 import sys
 import traceback
+import warnings
 
 from .. import __version__
 from ..atomic import check_distinct_outputs, output_set
@@ -56,18 +57,31 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+def _run(args: argparse.Namespace) -> int:
+    """The subcommand, with its outputs replaced together (the gallery: per output)."""
+    if args.command in _SEPARATE_OUTPUTS:
+        return int(args.run(args) or 0)
+    check_distinct_outputs([getattr(args, "out", None), getattr(args, "report", None)])
+    with output_set():
+        return int(args.run(args) or 0)
+
+
+def _one_line_warning(command: str):
+    """A warnings.showwarning that prints the tool's own warnings as one line on stderr."""
+    def show(message, category, filename, lineno, file=None, line=None) -> None:
+        print(f"orbitalrender {command}: warning: {message}", file=sys.stderr)
+    return show
+
+
 def main(argv: list[str] | None = None) -> int:
     """Run the command line; returns the exit status."""
     argv = sys.argv[1:] if argv is None else argv
     parser = build_parser()
     args = parser.parse_args(argv)
     try:
-        if args.command in _SEPARATE_OUTPUTS:
-            status = int(args.run(args) or 0)
-        else:
-            check_distinct_outputs([getattr(args, "out", None), getattr(args, "report", None)])
-            with output_set():
-                status = int(args.run(args) or 0)
+        with warnings.catch_warnings():
+            warnings.showwarning = _one_line_warning(args.command)
+            status = _run(args)
         sys.stdout.flush()  # inside the try, so a reader that went away is handled below
         return status
     except BrokenPipeError:
