@@ -50,7 +50,7 @@ BASELINE_ZOOM = 1.57
 
 
 def ours(surface, pixels: int, path: Path) -> None:
-    render = render_surfaces(surface, pixels, pixels, CAMERA)
+    render = render_surfaces(surface, pixels, pixels, camera=CAMERA)
     imsave(path, np.round(render.rgba * 255).astype(np.uint8))
 
 

@@ -54,6 +54,9 @@ _EXPORTS: dict[str, str] = {
     "LevelResult": "surface.level", "level_for_fraction": "surface.level",
     "Surface": "surface.model",
     "Topology": "surface.topology", "split_components": "surface.topology", "topology": "surface.topology",
+    **dict.fromkeys(("FigureOptions", "LayoutOptions", "SectionOptions", "RadialOptions", "MeshOptions",
+                     "DescribeOptions", "figure_job", "section_job", "radial_job", "mesh_job",
+                     "describe_job"), "jobs"),
 }
 
 
@@ -84,4 +87,6 @@ __all__ = [
     "plane", "cross_section", "section_lines", "section_figure", "radial_figure", "radial_marks",
     "Camera", "render_surfaces", "figure_3d", "small_multiples", "time_strip", "shell_states",
     "load_config", "run_gallery",
+    "FigureOptions", "LayoutOptions", "SectionOptions", "RadialOptions", "MeshOptions", "DescribeOptions",
+    "figure_job", "section_job", "radial_job", "mesh_job", "describe_job",
 ]

@@ -114,9 +114,9 @@ def test_sign_split_of_a_complex_state_is_refused(tmp_path, capsys):
 
 @pytest.mark.parametrize(("extra", "message"), [
     (["--out", "{d}/model.3mf"], "cannot tell the mesh format"),
-    (["--out", "{d}/model.stl", "--size-mm", "0"], "positive number of millimetres"),
-    (["--out", "{d}/model.stl", "--size-mm", "-10"], "positive number of millimetres"),
-    (["--out", "{d}/model.stl", "--printable"], "need --size-mm"),
+    (["--out", "{d}/model.stl", "--size-mm", "0"], "--size-mm must be a number in [0.1, 10000]"),
+    (["--out", "{d}/model.stl", "--size-mm", "-10"], "--size-mm must be a number in [0.1, 10000]"),
+    (["--out", "{d}/model.stl", "--printable"], "needs --size-mm"),
     (["--out", "{d}/missing/model.stl"], "does not exist"),
 ])
 def test_bad_input_is_one_line_and_exit_2(tmp_path, capsys, extra, message):

@@ -44,7 +44,7 @@ def test_refusals(tmp_path, capsys):
                         (["1s", "--quantity", "psi"], "--quantity"),
                         (["1s", "--fraction", "0"], "--fraction"),
                         (["1s", "--out", str(tmp_path / "r.bmp")], ".png, .svg, .pdf"),
-                        (["1s", "--dpi", "1"], "dots per inch"),
+                        (["1s", "--dpi", "1"], "--dpi must be a number in [10, 2400]"),
                         (["4,4,0"], "l")]:
         assert main(["radial", *argv, "--out", str(tmp_path / "r.png")] if "--out" not in argv
                     else ["radial", *argv]) == 2

@@ -85,14 +85,14 @@ def test_refusals_are_one_line_and_write_nothing(tmp_path, capsys):
     before = target.read_bytes()
     capsys.readouterr()
     cases = [
-        (["2pz", "--plane", "xw"], "invalid choice"),
+        (["2pz", "--plane", "xw"], "--plane must be one of"),
         (["2pz", "--offset", "500"], "misses"),
         (["2pz", "--pixels", "4"], "--pixels"),
         (["2pz", "--fraction", "1.5"], "--fraction"),
         (["2pz", "--normal", "0,0,0"], "zero vector"),
         (["2pz", "--normal", "1,x,0"], "--normal"),
         (["2pz", "--decades", "0"], "--decades"),
-        (["2pz", "--plane", "xy", "--normal", "1,0,0"], "not allowed"),
+        (["2pz", "--plane", "xy", "--normal", "1,0,0"], "does not go with"),
         (["2,1,1", "--plane", "xy", "--phase-map", "sign"], "sign map"),
         (["2pz", "--out", str(tmp_path / "nope" / "a.png")], "does not exist"),
         (["2pz", "--out", str(tmp_path / "a.gif")], ".png, .svg, .pdf"),

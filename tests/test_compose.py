@@ -33,7 +33,7 @@ def test_figure_has_the_render_pixel_for_pixel_and_the_maps_legend(sphere_1s):
 
 
 def test_compose_refuses_mismatched_panels(sphere_1s):
-    g = fit_geometry(300, 200, 2, 1)
+    g = fit_geometry(300, 200, ncols=2, nrows=1)
     a = render_surfaces(sphere_1s, *g.panel_px)
     b = render_surfaces(sphere_1s, *g.panel_px, camera=replace(SIDE, zoom=2.0))
     with pytest.raises(ValueError, match="different scales"):

@@ -8,6 +8,8 @@ from pathlib import Path
 
 from orbitalrender.cli import build_parser
 from orbitalrender.gallery.config import SCHEMA, TOP_KEYS
+from orbitalrender.jobs import KINDS, options_of
+from orbitalrender.jobs.option import expected_text, key_of
 
 ROOT = Path(__file__).resolve().parent.parent
 GUIDE = (ROOT / "docs" / "guide.md").read_text(encoding="utf-8")
@@ -62,6 +64,36 @@ def _config_reference() -> set[str]:
 
 def test_config_reference_lists_exactly_the_schema_keys():
     assert _config_reference() == set(SCHEMA) | set(TOP_KEYS)
+
+
+def _config_rows() -> dict[str, str]:
+    m = re.search(r"^### Config reference.*?$(.*?)(?=^## )", GUIDE, re.MULTILINE | re.DOTALL)
+    return {mt[1]: mt[0] for mt in re.finditer(r"^\| `([A-Za-z_0-9]+)` \|.*$", m.group(1), re.MULTILINE)}
+
+
+def test_config_reference_gives_the_ranges_and_values_of_the_jobs_definitions():
+    rows = _config_rows()
+    for cls in KINDS.values():
+        for name, (opt, _) in options_of(cls).items():
+            key = key_of(name, opt)
+            if not key or key not in rows:
+                continue
+            row = rows[key]
+            if opt.choices is not None:
+                for choice in opt.choices:
+                    assert f"`{choice}`" in row, (key, choice)
+            elif opt.lo is not None and opt.hi is not None:
+                interval = expected_text(opt).split(" in ", 1)[1]
+                assert interval in row, (key, interval, row)
+
+
+def test_every_flag_default_in_the_help_is_the_definitions_default():
+    # the help text is generated from the definitions: "(default X)" shows the field's default
+    for name, sub in _subcommands().items():
+        help_text = " ".join(sub.format_help().split())
+        for action in sub._actions:
+            if action.option_strings and isinstance(action.default, float):
+                assert f"(default {action.default:g}" in help_text, (name, action.dest)
 
 
 def test_guide_links_to_the_other_documents_that_exist():

@@ -38,14 +38,14 @@ _GALLERY = '[[outputs]]\nname = "p"\nkind = "figure"\nstate = "2pz"\nfraction = 
 
 
 @pytest.mark.parametrize("argv, fragment", [
-    (["describe", "2pz", "--fraction", F_NEAR_ONE], "at most 0.9999"),
-    (["figure", "2pz", "--fraction", F_NEAR_ONE, "--out", "f.png"], "at most 0.9999"),
-    (["section", "2pz", "--fraction", F_NEAR_ONE, "--out", "s.png"], "at most 0.9999"),
-    (["mesh", "2pz", "--fraction", F_NEAR_ONE, "--out", "m.stl"], "at most 0.9999"),
-    (["radial", "2pz", "--fraction", "0.9999999999999999", "--out", "r.png"], "at most 0.9999"),
+    (["describe", "2pz", "--fraction", F_NEAR_ONE], "(0, 0.9999]"),
+    (["figure", "2pz", "--fraction", F_NEAR_ONE, "--out", "f.png"], "(0, 0.9999]"),
+    (["section", "2pz", "--fraction", F_NEAR_ONE, "--out", "s.png"], "(0, 0.9999]"),
+    (["mesh", "2pz", "--fraction", F_NEAR_ONE, "--out", "m.stl"], "(0, 0.9999]"),
+    (["radial", "2pz", "--fraction", "0.9999999999999999", "--out", "r.png"], "(0, 0.9999]"),
     (["gallery", "g.toml", "--out", "out"], "key 'fraction' must be a number in (0, 0.9999]"),
-    (["describe", "2pz", "--Z", "1e-300"], "Z must be from 0.01 to 137"),
-    (["figure", "2pz", "--Z", "1e-300", "--out", "f.png"], "Z must be from 0.01 to 137"),
+    (["describe", "2pz", "--Z", "1e-300"], "Z must be a number in [0.01, 137]"),
+    (["figure", "2pz", "--Z", "1e-300", "--out", "f.png"], "Z must be a number in [0.01, 137]"),
     (["describe", "2pz", "--nucleus", "1e-200"], "must be at least 1"),
     (["radial", "2pz", "--nucleus", "1e-200", "--out", "r.png"], "must be at least 1"),
     (["describe", "201,0,0"], "n must be at most 200"),

@@ -90,7 +90,7 @@ CASES = [
 def test_every_output_shows_the_closed_form_sign_on_each_lobe(text, terms, direction):
     state = parse_state(text)
     surface = extract_surface(state, 0.9, resolution=40)
-    render = render_surfaces(surface, 96, 96, SIDE, phase_map="sign", supersample=1)
+    render = render_surfaces(surface, 96, 96, camera=SIDE, phase_map="sign", supersample=1)
     mesh = surface_mesh(surface, 1.0, "sign")
     bodies = split_by_sign(mesh, surface.psi, state=state)
     section = cross_section(state, plane("xz"), pixels=64, fraction=None)

@@ -55,7 +55,7 @@ def _world_to_pixel(render, point):
 
 
 def test_1s_silhouette_radius_matches_the_closed_form(sphere_1s):
-    r = render_surfaces(sphere_1s, 160, 160, SIDE, background=None)
+    r = render_surfaces(sphere_1s, 160, 160, camera=SIDE, background=None)
     area_px = float(r.rgba[..., 3].sum())
     measured = math.sqrt(area_px / math.pi)
     expected = _radius_1s(0.9) * r.px_per_a0
@@ -69,7 +69,7 @@ def test_perspective_silhouette_follows_the_pinhole_camera(sphere_1s):
     # A sphere of radius R at distance D from a pinhole subtends asin(R/D); on the image plane
     # at unit scale the silhouette radius is D tan(asin(R/D)) = R / sqrt(1 - (R/D)^2).
     cam = Camera(0.0, 0.0, projection="perspective", field_of_view_deg=60.0)
-    r = render_surfaces(sphere_1s, 160, 160, cam, background=None)
+    r = render_surfaces(sphere_1s, 160, 160, camera=cam, background=None)
     radius = _radius_1s(0.9)
     d = r.camera.distance_a0
     expected = r.px_per_a0 * radius / math.sqrt(1 - (radius / d) ** 2)
@@ -79,8 +79,8 @@ def test_perspective_silhouette_follows_the_pinhole_camera(sphere_1s):
 
 
 def test_silhouette_is_antialiased(sphere_1s):
-    a3 = render_surfaces(sphere_1s, 96, 96, SIDE, background=None, supersample=3).rgba[..., 3]
-    a1 = render_surfaces(sphere_1s, 96, 96, SIDE, background=None, supersample=1).rgba[..., 3]
+    a3 = render_surfaces(sphere_1s, 96, 96, camera=SIDE, background=None, supersample=3).rgba[..., 3]
+    a1 = render_surfaces(sphere_1s, 96, 96, camera=SIDE, background=None, supersample=1).rgba[..., 3]
     assert set(np.unique(a1)) <= {0.0, 1.0}
     partial = (a3 > 0) & (a3 < 1)
     assert partial.sum() > 100  # a ring of partly covered pixels around the disc
@@ -91,7 +91,7 @@ def test_shading_is_smooth_not_faceted(sphere_1s):
     # Phong interpolation: brightness varies smoothly across the sphere.  The same mesh with
     # one normal per triangle (flat shading) shows steps; the smooth render must be far calmer.
     def roughness(surface):
-        rgb = render_surfaces(surface, 200, 200, SIDE).rgba[..., :3]
+        rgb = render_surfaces(surface, 200, 200, camera=SIDE).rgba[..., :3]
         lum = rgb2lab(rgb)[..., 0]
         inner = lum[60:140, 60:140]
         return float(np.percentile(np.abs(np.diff(inner, 2, axis=1)), 99))
@@ -110,7 +110,7 @@ def test_shading_is_smooth_not_faceted(sphere_1s):
 
 def test_2pz_lobes_have_hues_pi_apart(lobes_2pz):
     # psi_210 = z exp(-r/2) / (4 sqrt(2 pi)) (closed form): phase 0 on +z, pi on -z.
-    r = render_surfaces(lobes_2pz, 160, 160, SIDE)
+    r = render_surfaces(lobes_2pz, 160, 160, camera=SIDE)
     top = r.rgba[_world_to_pixel(r, (0, 0, 3.5))][:3]
     bottom = r.rgba[_world_to_pixel(r, (0, 0, -3.5))][:3]
     ref0, refpi = phase_to_rgb(np.array([0.0, np.pi]))
@@ -123,7 +123,7 @@ def test_2pz_lobes_have_hues_pi_apart(lobes_2pz):
 def test_complex_m1_ring_seen_from_z_shows_every_hue_once():
     # arg psi_211 = arg Y_1^1 = phi + pi (Condon-Shortley), from scipy.special.sph_harm_y.
     surface = extract_surface(eigenstate(2, 1, 1), 0.9, resolution=48)
-    r = render_surfaces(surface, 200, 200, TOP)
+    r = render_surfaces(surface, 200, 200, camera=TOP)
     phis = np.linspace(0, 2 * np.pi, 36, endpoint=False)
     radius = np.mean(np.hypot(surface.vertices_a0[:, 0], surface.vertices_a0[:, 1]))
     rendered, expected = [], []
@@ -153,8 +153,8 @@ def test_nearer_surface_hides_farther_whatever_the_order(sphere_1s):
     near = replace(sphere_1s, vertices_a0=sphere_1s.vertices_a0 + [6.0, 0, 0])
     far = replace(sphere_1s, vertices_a0=1.6 * sphere_1s.vertices_a0, psi=-sphere_1s.psi)
     cam = replace(SIDE, target_a0=(0.0, 0.0, 0.0))
-    a = render_surfaces([near, far], 120, 120, cam)
-    b = render_surfaces([far, near], 120, 120, cam)
+    a = render_surfaces([near, far], 120, 120, camera=cam)
+    b = render_surfaces([far, near], 120, 120, camera=cam)
     assert np.array_equal(a.rgba, b.rgba)
     centre = a.rgba[60, 60, :3]
     ring = a.rgba[_world_to_pixel(a, (0, 0, 3.6))][:3]  # only the far sphere reaches there
@@ -167,7 +167,7 @@ def test_3dz2_ring_passes_in_front_of_and_behind_the_lobes():
     # Seen slightly from above, the ring covers the lower lobe's top in front (negative hue at
     # the front of the ring) and the upper lobe covers the ring's back.
     surface = extract_surface(real_orbital(3, 2, 0), 0.9, resolution=56)
-    r = render_surfaces(surface, 200, 200, Camera(0.0, 10.0))
+    r = render_surfaces(surface, 200, 200, camera=Camera(0.0, 10.0))
     h0, hpi = _hue_deg(phase_to_rgb(np.array([0.0, np.pi])))
     rho = np.max(np.hypot(surface.vertices_a0[:, 0], surface.vertices_a0[:, 1])) * 0.8
     front = r.rgba[_world_to_pixel(r, (rho, 0.0, 0.0))][:3]     # ring, nearest part
@@ -183,7 +183,7 @@ def test_cutaway_cap_shows_the_inner_shell_of_2s():
     state = eigenstate(2, 0, 0)
     surface = extract_surface(state, 0.9, resolution=96)
     cut = parse_cutaway("x>0")
-    r = render_surfaces(surface, 200, 200, replace(SIDE, target_a0=(0.0, 0.0, 0.0)), cutaway=cut)
+    r = render_surfaces(surface, 200, 200, camera=replace(SIDE, target_a0=(0.0, 0.0, 0.0)), cutaway=cut)
     h0, hpi = _hue_deg(phase_to_rgb(np.array([0.0, np.pi])))
     inner = r.rgba[_world_to_pixel(r, (0, 0.3, 0.3))][:3]
     outer = r.rgba[_world_to_pixel(r, (0, 4.0, 3.0))][:3]
@@ -193,7 +193,7 @@ def test_cutaway_cap_shows_the_inner_shell_of_2s():
     patch = r.rgba[row - 4:row + 5, col - 4:col + 5, :3]
     assert np.ptp(patch, axis=(0, 1)).max() < 0.01  # a flat cut face, evenly lit
     # without the cut the outside of the outer shell is seen instead, and it is shaded
-    whole = render_surfaces(surface, 200, 200, replace(SIDE, target_a0=(0.0, 0.0, 0.0)))
+    whole = render_surfaces(surface, 200, 200, camera=replace(SIDE, target_a0=(0.0, 0.0, 0.0)))
     assert _hue_gap(_hue_deg([whole.rgba[100, 100, :3]])[0], hpi) < 8
 
 
@@ -201,7 +201,7 @@ def test_cap_colour_is_psi_at_the_cap_point():
     # For |2 1 1> the cap x = 0 of the cut x > 0 carries arg psi = arg Y_1^1(theta, phi) with
     # phi = +-pi/2 (scipy.special.sph_harm_y), a different hue on the +y and -y halves.
     surface = extract_surface(eigenstate(2, 1, 1), 0.9, resolution=48)
-    r = render_surfaces(surface, 200, 200, replace(SIDE, target_a0=(0.0, 0.0, 0.0)),
+    r = render_surfaces(surface, 200, 200, camera=replace(SIDE, target_a0=(0.0, 0.0, 0.0)),
                         cutaway=parse_cutaway("x>0"))
     radius = np.mean(np.hypot(surface.vertices_a0[:, 0], surface.vertices_a0[:, 1]))
     for y, phi in ((radius, np.pi / 2), (-radius, -np.pi / 2)):
@@ -214,8 +214,8 @@ def test_translucent_outer_shell_lets_the_inner_one_show():
     state = eigenstate(2, 0, 0)
     surface = extract_surface(state, 0.9, resolution=96)
     cam = replace(SIDE, target_a0=(0.0, 0.0, 0.0))
-    opaque = render_surfaces(surface, 160, 160, cam)
-    seen_through = render_surfaces(surface, 160, 160, cam, translucent_outer=0.3)
+    opaque = render_surfaces(surface, 160, 160, camera=cam)
+    seen_through = render_surfaces(surface, 160, 160, camera=cam, translucent_outer=0.3)
     h0, hpi = _hue_deg(phase_to_rgb(np.array([0.0, np.pi])))
     assert _hue_gap(_hue_deg([opaque.rgba[80, 80, :3]])[0], hpi) < 8
     # at 30 % opacity per layer (the shell's outer and inner walls) the positive inner ball
@@ -225,14 +225,15 @@ def test_translucent_outer_shell_lets_the_inner_one_show():
     # the outer parts away from the ball stay the shell's colour, only fainter
     edge = _hue_deg([seen_through.rgba[80, 20, :3]])[0]
     assert _hue_gap(edge, hpi) < 8
-    assert np.array_equal(render_surfaces(surface, 160, 160, cam, translucent_outer=1.0).rgba, opaque.rgba)
+    same = render_surfaces(surface, 160, 160, camera=cam, translucent_outer=1.0)
+    assert np.array_equal(same.rgba, opaque.rgba)
 
 
 def test_nodal_axis_line_is_drawn_and_hidden_behind_the_ring():
     surface = extract_surface(eigenstate(2, 1, 1), 0.9, resolution=48)
     cam = Camera(0.0, 10.0)
-    plain = render_surfaces(surface, 200, 200, cam)
-    lined = render_surfaces(surface, 200, 200, cam, nodal_axis=True)
+    plain = render_surfaces(surface, 200, 200, camera=cam)
+    lined = render_surfaces(surface, 200, 200, camera=cam, nodal_axis=True)
     changed = np.any(np.abs(lined.rgba - plain.rgba) > 0.2, axis=2)
     rows = np.flatnonzero(changed.any(axis=1))
     top_z = surface.vertices_a0[:, 2].max()
@@ -247,23 +248,23 @@ def test_nodal_axis_line_is_drawn_and_hidden_behind_the_ring():
 
 def test_same_inputs_same_pixels(lobes_2pz):
     def digest():
-        r = render_surfaces(lobes_2pz, 120, 100, Camera(20, 30), cutaway=parse_cutaway("quadrant"))
+        r = render_surfaces(lobes_2pz, 120, 100, camera=Camera(20, 30), cutaway=parse_cutaway("quadrant"))
         return hashlib.sha256(r.rgba.tobytes()).hexdigest()
 
     assert digest() == digest()
 
 
 def test_transparent_background(sphere_1s):
-    r = render_surfaces(sphere_1s, 64, 64, SIDE, background=None)
+    r = render_surfaces(sphere_1s, 64, 64, camera=SIDE, background=None)
     assert r.rgba[0, 0, 3] == 0 and r.rgba[32, 32, 3] == 1
 
 
 def test_zoom_scales_and_fit_keeps_a_margin(lobes_2pz):
     cam = frame_camera(lobes_2pz, SIDE)
-    r1 = render_surfaces(lobes_2pz, 100, 100, cam)
-    r2 = render_surfaces(lobes_2pz, 100, 100, replace(cam, zoom=2.0))
+    r1 = render_surfaces(lobes_2pz, 100, 100, camera=cam)
+    r2 = render_surfaces(lobes_2pz, 100, 100, camera=replace(cam, zoom=2.0))
     assert r2.px_per_a0 == pytest.approx(2 * r1.px_per_a0)
-    alpha = render_surfaces(lobes_2pz, 100, 100, SIDE, background=None).rgba[..., 3]
+    alpha = render_surfaces(lobes_2pz, 100, 100, camera=SIDE, background=None).rgba[..., 3]
     assert alpha[0].max() == 0 and alpha[-1].max() == 0 and alpha[:, 0].max() == 0
 
 

@@ -35,7 +35,7 @@ def test_2pz_in_xz_has_its_node_along_z_equals_0():
     # 2p_z: psi = z e^{-r/2} / (4 sqrt(2 pi)) (closed form, e.g. Bethe & Salpeter, Quantum
     # Mechanics of One- and Two-Electron Atoms, sec. 3): psi = 0 exactly on the plane z = 0,
     # which the xz section cuts along the line z = 0 and nowhere else.
-    s = cross_section(real_orbital(2, 1, 0), plane("xz"), 10.0, pixels=128, fraction=None)
+    s = cross_section(real_orbital(2, 1, 0), plane("xz"), half_width_a0=10.0, pixels=128, fraction=None)
     assert s.signed is not None
     v = _all_vertices(nodal_lines(s))
     np.testing.assert_allclose(v[:, 1], 0.0, atol=1e-9)
@@ -45,7 +45,7 @@ def test_2pz_in_xz_has_its_node_along_z_equals_0():
 def test_3dz2_nodes_are_the_cones_of_the_magic_angle():
     # 3d_z2 ~ (3 cos^2 theta - 1) r^2 e^{-r/3} (closed form; Bethe & Salpeter, sec. 3): nodal
     # cones at cos theta = +-1/sqrt(3), theta = 54.7356 deg; no radial node (n - l - 1 = 0).
-    s = cross_section(real_orbital(3, 2, 0), plane("xz"), 20.0, pixels=200, fraction=None)
+    s = cross_section(real_orbital(3, 2, 0), plane("xz"), half_width_a0=20.0, pixels=200, fraction=None)
     v = _all_vertices(nodal_lines(s))
     r = np.hypot(v[:, 0], v[:, 1])
     far = r > 20 * s.pixel_a0  # the lines cross at the nucleus, where the angle is undefined
@@ -59,7 +59,7 @@ def test_3dz2_nodes_are_the_cones_of_the_magic_angle():
 def test_2s_section_has_a_nodal_circle_at_2_a0():
     # R_20 ~ (2 - r) e^{-r/2} (closed form, r in a0): one radial node, the sphere r = 2 a0.
     for spec in ("xy", (1.0, -2.0, 0.5)):
-        s = cross_section(eigenstate(2, 0, 0), plane(spec), 5.0, pixels=160, fraction=None)
+        s = cross_section(eigenstate(2, 0, 0), plane(spec), half_width_a0=5.0, pixels=160, fraction=None)
         v = _all_vertices(nodal_lines(s))
         np.testing.assert_allclose(np.hypot(v[:, 0], v[:, 1]), 2.0, atol=2e-3)
         angles = np.sort(np.arctan2(v[:, 1], v[:, 0]))
@@ -77,7 +77,7 @@ def test_1s_enclosing_contour_is_the_closed_form_circle(spec, fraction):
     # The F surface of 1s is the sphere of radius x with 1 - e^{-2x}(1+2x+2x^2) = F, so its
     # cut by any plane through the nucleus is a circle of that radius.
     x = _one_s_radius(fraction)
-    s = cross_section(eigenstate(1, 0, 0), plane(spec), 1.3 * x, pixels=200, fraction=fraction)
+    s = cross_section(eigenstate(1, 0, 0), plane(spec), half_width_a0=1.3 * x, pixels=200, fraction=fraction)
     v = _all_vertices(level_contour(s))
     np.testing.assert_allclose(np.hypot(v[:, 0], v[:, 1]), x, rtol=2e-4)
 
@@ -88,7 +88,7 @@ def test_complex_m1_hue_winds_once_in_xy():
     # counter-clockwise, around the nucleus.
     r_, ph_, th_ = symbols("r phi theta", positive=True)
     psi_ref = lambdify((r_, ph_, th_), Psi_nlm(2, 1, 1, r_, ph_, th_), "numpy")
-    s = cross_section(eigenstate(2, 1, 1), plane("xy"), 8.0, pixels=128, fraction=None)
+    s = cross_section(eigenstate(2, 1, 1), plane("xy"), half_width_a0=8.0, pixels=128, fraction=None)
     u, v = np.meshgrid(s.u_a0, s.v_a0)
     rr, phi = np.hypot(u, v), np.arctan2(v, u)
     reference = psi_ref(rr, phi, np.full_like(rr, np.pi / 2))
@@ -119,7 +119,7 @@ def test_complex_section_node_is_the_radial_circle():
     # sympy: Psi_nlm(3, 1, 1) = r (r - 6) e^{i phi - r/3} sin(theta) / (81 sqrt(pi)): on the xy
     # plane psi is genuinely complex, vanishing on the circle r = 6 a0 (and at the nucleus, a
     # point).  Only the circle may be drawn: none of the zero lines of Re or Im alone.
-    s = cross_section(eigenstate(3, 1, 1), plane("xy"), 10.0, pixels=200, fraction=None)
+    s = cross_section(eigenstate(3, 1, 1), plane("xy"), half_width_a0=10.0, pixels=200, fraction=None)
     assert s.signed is None
     v = _all_vertices(nodal_lines(s))
     np.testing.assert_allclose(np.hypot(v[:, 0], v[:, 1]), 6.0, atol=5e-3)
@@ -133,7 +133,7 @@ def test_near_nodes_of_a_complex_superposition_are_not_drawn():
     # form e^{-r}/sqrt(pi)).  Far out along z = 0 the 1s term is tiny and |psi| nearly vanishes on
     # a line; that near-node must not be drawn.
     s = cross_section(superpose([(1, eigenstate(1, 0, 0)), (1, eigenstate(2, 1, 0))], time_au=10.0),
-                      plane("xz"), 13.0, pixels=200, fraction=None)
+                      plane("xz"), half_width_a0=13.0, pixels=200, fraction=None)
     assert s.signed is None
     assert nodal_lines(s) == []
 
@@ -142,7 +142,7 @@ def test_eigenstate_on_a_plane_through_z_is_signed():
     # |n l m> = R P_l^m(cos theta) e^{i m phi}: on the xz plane e^{i m phi} = +-1, so psi is real
     # up to one global phase there and the nodes of 3,2,1 (cos theta sin theta = 0) are the x
     # and z axes (closed form of P_2^1 ~ cos theta sin theta).
-    s = cross_section(eigenstate(3, 2, 1), plane("xz"), 15.0, pixels=150, fraction=None)
+    s = cross_section(eigenstate(3, 2, 1), plane("xz"), half_width_a0=15.0, pixels=150, fraction=None)
     assert s.signed is not None
     v = _all_vertices(nodal_lines(s))
     on_axis = np.minimum(np.abs(v[:, 0]), np.abs(v[:, 1]))
@@ -154,9 +154,10 @@ def test_user_lattice_is_interpolated():
     # stays within the interpolation error of the exact psi.
     lat = sample(real_orbital(2, 1, 0), resolution=96, dtype=np.complex128)
     user = Lattice(lat.values, lat.origin_a0, lat.spacing_a0, None)
-    s = cross_section(user, plane("xz", 0.37), 12.0, pixels=96, fraction=None)
+    s = cross_section(user, plane("xz", 0.37), half_width_a0=12.0, pixels=96, fraction=None)
     assert not s.exact
-    exact = cross_section(real_orbital(2, 1, 0), plane("xz", 0.37), 12.0, pixels=96, fraction=None)
+    exact = cross_section(real_orbital(2, 1, 0), plane("xz", 0.37), half_width_a0=12.0, pixels=96,
+                          fraction=None)
     peak = np.nanmax(np.abs(exact.psi))
     # linear interpolation error ~ h^2 |psi''| / 8 with h = 0.42 a0 here: a few per cent of the peak
     assert np.nanmax(np.abs(s.psi - exact.psi)) < 0.04 * peak
@@ -169,7 +170,8 @@ def test_user_lattice_is_interpolated():
 def test_window_beyond_a_user_lattice_is_blank():
     lat = sample(real_orbital(2, 1, 0), resolution=24, dtype=np.complex128)
     user = Lattice(lat.values, lat.origin_a0, lat.spacing_a0, None)
-    s = cross_section(user, plane("xy", 1.0), 4.0 * lat.extent_a0()[0][1], pixels=64, fraction=None)
+    s = cross_section(user, plane("xy", 1.0), half_width_a0=4.0 * lat.extent_a0()[0][1], pixels=64,
+                      fraction=None)
     assert np.isnan(s.psi[0, 0]) and np.isfinite(s.psi[32, 32])
     section_figure(s, section_lines(s))  # draws without complaint
 
@@ -187,18 +189,18 @@ def test_plane_that_misses_the_state_is_an_error():
 
 def test_nodal_plane_is_reported_not_drawn():
     # 2p_z vanishes on the whole xy plane (closed form psi ~ z)
-    s = cross_section(real_orbital(2, 1, 0), plane("xy"), 8.0, pixels=32, fraction=None)
+    s = cross_section(real_orbital(2, 1, 0), plane("xy"), half_width_a0=8.0, pixels=32, fraction=None)
     assert s.is_nodal_plane and nodal_lines(s) == []
     fig = section_figure(s, section_lines(s))
     assert any("nodal plane" in t.get_text() for t in fig.axes[0].texts)
 
 
 def test_sign_map_needs_a_real_section():
-    s = cross_section(eigenstate(2, 1, 1), plane("xy"), 8.0, pixels=32, fraction=None)
+    s = cross_section(eigenstate(2, 1, 1), plane("xy"), half_width_a0=8.0, pixels=32, fraction=None)
     with pytest.raises(ValueError, match="sign map"):
         section_figure(s, section_lines(s), scheme="sign")
     # a real orbital keeps its conventional sign: 3d_z2 positive along z (3 cos^2 0 - 1 = 2)
-    s = cross_section(real_orbital(3, 2, 0), plane((1, 1, 1)), 12.0, pixels=32, fraction=None)
+    s = cross_section(real_orbital(3, 2, 0), plane((1, 1, 1)), half_width_a0=12.0, pixels=32, fraction=None)
     assert s.rotation == 1
     j = int(np.argmax(s.v_a0 > 5.0))
     assert s.signed[j, 16] > 0
@@ -206,13 +208,14 @@ def test_sign_map_needs_a_real_section():
 
 def test_log_weight_states_its_range():
     rho = np.array([2.0, 2e-1, 2e-2, 2e-3, 2e-4, 0.0])
-    np.testing.assert_allclose(density_weight(rho, "log", 3.0), [1, 2 / 3, 1 / 3, 0, 0, 0], atol=1e-12)
-    np.testing.assert_allclose(density_weight(rho, "linear"), rho / 2.0)
+    np.testing.assert_allclose(density_weight(rho, scale="log", decades=3.0), [1, 2 / 3, 1 / 3, 0, 0, 0],
+                               atol=1e-12)
+    np.testing.assert_allclose(density_weight(rho, scale="linear"), rho / 2.0)
 
 
 def test_axes_in_angstrom(tmp_path):
     # 1 a0 = 0.529177... angstrom (CODATA Bohr radius via scipy.constants)
-    s = cross_section(eigenstate(1, 0, 0), plane("xz"), 4.0, pixels=32, fraction=None)
+    s = cross_section(eigenstate(1, 0, 0), plane("xz"), half_width_a0=4.0, pixels=32, fraction=None)
     fig = section_figure(s, section_lines(s), units="angstrom")
     ax = fig.axes[0]
     assert ax.get_xlim()[1] == pytest.approx(4.0 * a0_to("angstrom"))
@@ -220,7 +223,7 @@ def test_axes_in_angstrom(tmp_path):
 
 
 def test_svg_and_pdf_keep_the_lines_as_vectors(tmp_path):
-    s = cross_section(eigenstate(2, 0, 0), plane("xz"), 8.0, pixels=64, fraction=0.9)
+    s = cross_section(eigenstate(2, 0, 0), plane("xz"), half_width_a0=8.0, pixels=64, fraction=0.9)
     fig = section_figure(s, section_lines(s))
     svg = save_figure(fig, tmp_path / "s.svg", {"state": "2s"}).read_text()
     for gid in ("enclosing-contour", "nodal-lines"):
@@ -238,7 +241,7 @@ def test_svg_and_pdf_keep_the_lines_as_vectors(tmp_path):
 
 def test_same_inputs_same_picture(tmp_path):
     def draw(name):
-        s = cross_section(eigenstate(3, 2, 1), plane("xz"), 15.0, pixels=64, fraction=0.9)
+        s = cross_section(eigenstate(3, 2, 1), plane("xz"), half_width_a0=15.0, pixels=64, fraction=0.9)
         fig = section_figure(s, section_lines(s), scale="log")
         return save_figure(fig, tmp_path / name, {"state": "3,2,1"}, dpi=50)
     assert draw("a.png").read_bytes() == draw("b.png").read_bytes()

@@ -2,24 +2,24 @@
 
 Exit status 0 on success, 2 for a mistake in the user's input (one line on
 stderr), 1 for a fault inside the tool (a short message; ``--debug`` shows the
-traceback) or when the system refuses, e.g. a full disk (one line).  A file that
-could not be written completely is never left behind: outputs go through
-:func:`orbitalrender.atomic.atomic_path`.
+traceback) or when the system refuses, e.g. a full disk (one line), and 130
+after Ctrl-C at any point (one line, no traceback).  A file that could not be
+written completely is never left behind: outputs go through
+:func:`orbitalrender.atomic.atomic_path`, and during the work Ctrl-C raises
+KeyboardInterrupt so those files are cleaned up before the exit.
+
+Building the parser loads no heavy library: the options come from the jobs'
+definitions (:mod:`orbitalrender.jobs`), and each command imports what it uses
+when it runs.
 """
 
 from __future__ import annotations
 
-import argparse
-import importlib
-import os
+import signal
 import sys
-import traceback
-import warnings
 
-from .. import __version__
 from ..atomic import check_distinct_outputs, output_set
-from ..errors import UserInputError
-from ..lattice.memory import MemoryLimitError
+from ..errors import INTERRUPTED_STATUS, UserInputError, quit_on_interrupt
 
 __all__ = ["main", "build_parser", "COMMANDS"]
 
@@ -33,19 +33,29 @@ COMMANDS: dict[str, str] = {
     "gallery": "gallery",
 }
 
-#: Commands whose outputs are not one set (the gallery replaces each output's files as a set).
-_SEPARATE_OUTPUTS = frozenset({"gallery"})
-
-_USER_ERRORS = (UserInputError, ValueError, MemoryLimitError, FileNotFoundError,
-                PermissionError, IsADirectoryError, NotADirectoryError)
+_DASH_HINT = "a STATE that starts with '-' may also follow '--', e.g. -- -1*3dz2"
 
 
-class _Parser(argparse.ArgumentParser):
-    def error(self, message: str):  # one line, exit status 2, as argparse does, with the program name
-        self.exit(2, f"{self.prog}: error: {message}\n")
+def _user_errors() -> tuple[type[BaseException], ...]:
+    from ..lattice.memory import MemoryLimitError
+
+    return (UserInputError, ValueError, MemoryLimitError, FileNotFoundError, PermissionError,
+            IsADirectoryError, NotADirectoryError)
 
 
-def build_parser() -> argparse.ArgumentParser:
+def build_parser():
+    """The argparse parser of the whole command line (every subcommand registered)."""
+    import argparse
+    import importlib
+
+    from .. import __version__
+
+    class _Parser(argparse.ArgumentParser):
+        def error(self, message: str):  # one line, exit status 2, as argparse does, with the program name
+            if "STATE" in message:
+                message += f" ({_DASH_HINT})"
+            self.exit(2, f"{self.prog}: error: {message}\n")
+
     parser = _Parser(prog="orbitalrender",
                      description="Quantitative figures and printable meshes of hydrogen-like states.")
     parser.add_argument("--version", action="version", version=f"orbitalrender {__version__}")
@@ -57,31 +67,139 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
-def _run(args: argparse.Namespace) -> int:
-    """The subcommand, with its outputs replaced together (the gallery: per output)."""
-    if args.command in _SEPARATE_OUTPUTS:
-        return int(args.run(args) or 0)
-    check_distinct_outputs([getattr(args, "out", None), getattr(args, "report", None)])
-    with output_set():
-        return int(args.run(args) or 0)
+def _subparser(parser, name: str):
+    import argparse
+
+    for action in parser._actions:
+        if isinstance(action, argparse._SubParsersAction):
+            return action.choices.get(name)
+    return None
+
+
+def protect_leading_minus(parser, argv: list[str]) -> list[str]:
+    """`argv` with each STATE that starts with '-' (``-1*3dz2``, ``-i*2pz``) kept a STATE.
+
+    argparse takes any word that starts with '-' (other than a plain negative number)
+    for an option.  Here a word that is not one of the command's options (nor a unique
+    abbreviation of one) is marked as a positional (a leading space, which the STATE
+    notation ignores), and the value of an option that takes one is joined to it
+    (``--times -1,2`` -> ``--times=-1,2``).  Words after ``--`` are left alone.
+
+    Examples
+    --------
+    >>> protect_leading_minus(build_parser(), ["radial", "1s", "-2s", "--fraction", "0.5"])
+    ['radial', '1s', ' -2s', '--fraction', '0.5']
+    >>> protect_leading_minus(build_parser(), ["figure", "--times", "-1,2", "1s+2s"])
+    ['figure', '--times=-1,2', '1s+2s']
+    """
+    words = list(argv)
+    start = next((i for i, w in enumerate(words) if not w.startswith("-")), None)
+    sub = _subparser(parser, words[start]) if start is not None else None
+    if sub is None:
+        return words
+    actions = {s: a for a in sub._actions for s in a.option_strings}
+    out = words[:start + 1]
+    rest = iter(words[start + 1:])
+    for word in rest:
+        if word == "--":
+            out += [word, *rest]
+            break
+        if not word.startswith("-") or len(word) == 1:
+            out.append(word)
+            continue
+        name = word.split("=", 1)[0]
+        matches = [s for s in actions if s == name] or [s for s in actions
+                                                         if name.startswith("--") and s.startswith(name)]
+        if len(matches) != 1 and name.startswith("--"):
+            out.append(word)  # unknown or ambiguous: argparse says so
+            continue
+        if not matches:
+            out.append(" " + word)  # a STATE such as -1*3dz2
+            continue
+        action = actions[matches[0]]
+        out.append(word)
+        if "=" not in word and action.nargs is None and action.option_strings and _takes_value(action):
+            value = next(rest, None)
+            if value is None:
+                break
+            if value.startswith("-") and value != "-":
+                out[-1] = f"{word}={value}"
+            else:
+                out.append(value)
+    return out
+
+
+def _takes_value(action) -> bool:
+    import argparse
+
+    return not isinstance(action, (argparse._StoreTrueAction, argparse._StoreFalseAction,
+                                   argparse._HelpAction, argparse._VersionAction))
+
+
+def _on_sigint(handler):
+    """Install `handler` for SIGINT; returns the previous one (None: left alone, because
+    SIGINT is ignored, as for a job started with nohup, or this is not the main thread)."""
+    try:
+        if signal.getsignal(signal.SIGINT) is signal.SIG_IGN:
+            return None
+        return signal.signal(signal.SIGINT, handler)
+    except ValueError:  # signals can only be set in the main thread
+        return None
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Run the command line; returns the exit status.
+
+    Ctrl-C exits with status 130 and one line.  Given no `argv` (a real process), the
+    quiet Ctrl-C handler stays installed after the work; with `argv` (a caller in
+    Python) the caller's handler is put back.
+    """
+    previous = _on_sigint(quit_on_interrupt)
+    try:
+        return _main(sys.argv[1:] if argv is None else list(argv))
+    finally:
+        if argv is not None and previous is not None:
+            _on_sigint(previous)
+
+
+#: Commands whose outputs are not one set (the gallery replaces each output's files as a set).
+_SEPARATE_OUTPUTS = frozenset({"gallery"})
+
+
+def _run(args) -> int:
+    """The subcommand, with its outputs replaced together (the gallery: per output), and the
+    tool's own warnings shown as one line each."""
+    import warnings
+
+    with warnings.catch_warnings():
+        warnings.showwarning = _one_line_warning(args.command)
+        if args.command in _SEPARATE_OUTPUTS:
+            return int(args.run(args) or 0)
+        check_distinct_outputs([getattr(args, "out", None), getattr(args, "report", None)])
+        with output_set():
+            return int(args.run(args) or 0)
 
 
 def _one_line_warning(command: str):
-    """A warnings.showwarning that prints the tool's own warnings as one line on stderr."""
+    """A warnings.showwarning that prints a warning as one line on stderr."""
     def show(message, category, filename, lineno, file=None, line=None) -> None:
         print(f"orbitalrender {command}: warning: {message}", file=sys.stderr)
     return show
 
 
-def main(argv: list[str] | None = None) -> int:
-    """Run the command line; returns the exit status."""
-    argv = sys.argv[1:] if argv is None else argv
+def _main(argv: list[str]) -> int:
+    import importlib
+    import os
+    import traceback
+
     parser = build_parser()
-    args = parser.parse_args(argv)
+    args = parser.parse_args(protect_leading_minus(parser, argv))
+    user_errors = _user_errors()
     try:
-        with warnings.catch_warnings():
-            warnings.showwarning = _one_line_warning(args.command)
-            status = _run(args)
+        for module in getattr(args, "preload", ()):  # Ctrl-C here still quits at once (see add_command)
+            importlib.import_module(module)
+        _on_sigint(signal.default_int_handler)  # the work: files in progress get removed
+        status = _run(args)
         sys.stdout.flush()  # inside the try, so a reader that went away is handled below
         return status
     except BrokenPipeError:
@@ -89,7 +207,7 @@ def main(argv: list[str] | None = None) -> int:
         # a SIGPIPE ends would (status 128 + 13); further writes to stdout go nowhere
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
         return 141
-    except _USER_ERRORS as exc:
+    except user_errors as exc:
         print(f"orbitalrender {args.command}: error: {exc}", file=sys.stderr)
         if args.debug:
             traceback.print_exc()
@@ -100,11 +218,14 @@ def main(argv: list[str] | None = None) -> int:
             traceback.print_exc()
         return 1
     except KeyboardInterrupt:
+        _on_sigint(quit_on_interrupt)
         print("orbitalrender: interrupted", file=sys.stderr)
-        return 130
+        return INTERRUPTED_STATUS
     except Exception as exc:  # noqa: BLE001 - the last line of defence of the command line
         print(f"orbitalrender {args.command}: internal error: {type(exc).__name__}: {exc} "
               "(run with --debug for the traceback)", file=sys.stderr)
         if args.debug:
             traceback.print_exc()
         return 1
+    finally:
+        _on_sigint(quit_on_interrupt)

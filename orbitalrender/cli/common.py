@@ -1,94 +1,121 @@
-"""Options shared by several subcommands: the STATE and its physics, and the lattice."""
+"""Command line, shared part: argparse options generated from the jobs' options dataclasses.
+
+Every option of a subcommand comes from a field of the output kind's options
+dataclass (:mod:`orbitalrender.jobs`): its flag, default, metavar and help text.
+Values arrive as text and are checked by the same code as gallery values, so a
+refusal reads the same in both (``--fraction must be a number in (0, 1), got 1.5``).
+"""
 
 from __future__ import annotations
 
 import argparse
+from collections.abc import Callable
+from typing import Any
 
-from ..lattice.grid import Box
-from ..lattice.sampler import PRECISIONS, default_box
-from ..state.model import State
-from ..state.notation import parse_state
-from ..state.units import femtoseconds_to_au, nucleus_reduced_mass_ratio
+from ..errors import UserInputError
+from ..jobs.option import build, expected_text, flag_of, options_of
 
-__all__ = ["add_state_arguments", "state_from_args", "add_lattice_arguments", "add_field_arguments",
-           "field_from_args", "add_picture_arguments", "lattice_dtype", "box_from_args"]
+__all__ = ["add_command", "add_options", "options_from", "flag_name", "field_source"]
 
-
-def add_state_arguments(parser: argparse.ArgumentParser, many: bool = False,
-                        optional: bool = False) -> None:
-    """STATE (see the README for the notation), --Z, --nucleus and --time.
-
-    With `optional`, STATE may be left out (for a command that can read a field instead).
-    """
-    nargs = ("*" if optional else "+") if many else ("?" if optional else None)
-    parser.add_argument("state", nargs=nargs, metavar="STATE",
-                        help="e.g. 3,2,-1 or 3dz2 or '1s@(0,0,-0.7) + 1s@(0,0,0.7)'")
-    parser.add_argument("--Z", type=float, default=1.0, help="nuclear charge (default 1)")
-    parser.add_argument("--nucleus", default="infinite",
-                        help="infinite (default), hydrogen, deuterium, positronium, muonic-hydrogen, "
-                             "or a nucleus-to-electron mass ratio")
-    parser.add_argument("--time", type=float, default=0.0,
-                        help="time at which a superposition is drawn (default 0)")
-    parser.add_argument("--time-unit", choices=("au", "fs"), default="au",
-                        help="unit of --time: atomic units (hbar/E_h) or femtoseconds")
+_STATE_HELP = ("e.g. 3,2,-1 or 3dz2 or '1s@(0,0,-0.7) + 1s@(0,0,0.7)'; one that starts with '-' "
+               "may follow '--'")
 
 
-def state_from_args(args: argparse.Namespace, text: str | None = None) -> State:
-    """The State that the parsed options describe (`text` overrides args.state)."""
-    t = args.time if args.time_unit == "au" else femtoseconds_to_au(args.time)
-    return parse_state(args.state if text is None else text, Z=args.Z,
-                       reduced_mass_ratio=nucleus_reduced_mass_ratio(args.nucleus), time_au=t)
+def _help(opt, default: Any) -> str:
+    text = opt.help
+    if opt.type in ("number", "integer") and (opt.lo is not None or opt.hi is not None):
+        text += f", {expected_text(opt).split(' ', 2)[2]}"
+    if default is not None and opt.type != "bool":
+        if isinstance(default, tuple):
+            default = ",".join(str(d) for d in default)
+        elif isinstance(default, float):
+            default = f"{default:g}"
+        unit = f" {opt.unit}" if opt.unit else ""
+        text += f" (default {default}{unit})"
+    return text.replace("%", "%%")
 
 
-def add_lattice_arguments(parser: argparse.ArgumentParser, default_resolution: int = 128) -> None:
-    """--resolution, --box (half-width in a0) and --precision."""
-    parser.add_argument("--resolution", type=int, default=default_resolution,
-                        help=f"lattice points per axis (default {default_resolution})")
-    parser.add_argument("--box", type=float, default=None, metavar="HALF_WIDTH_A0",
-                        help="half-width of the lattice cube in a0 (default: from the state)")
-    parser.add_argument("--precision", choices=tuple(PRECISIONS), default="single",
-                        help="complex64 or complex128 lattice values (default single)")
+def add_options(parser: argparse.ArgumentParser, cls: type) -> None:
+    """Add STATE (if `cls` has one) and a flag for every option field of `cls` that has one."""
+    if hasattr(cls, "STATE_NARGS"):
+        parser.add_argument("states", nargs=cls.STATE_NARGS, metavar="STATE", help=_STATE_HELP,
+                            type=str.strip)
+    for name, (opt, default) in options_of(cls).items():
+        flag = flag_of(name, opt, default)
+        if not flag:
+            continue
+        if opt.type == "bool":
+            parser.add_argument(flag, dest=name, action="store_false" if default else "store_true",
+                                help=_help(opt, default))
+            continue
+        nargs = opt.count if opt.type == "numbers" and opt.parse is None else None
+        metavar = opt.metavar or (flag[2:].upper().replace("-", "_") if opt.choices is None else
+                                  "{" + ",".join(opt.choices) + "}")
+        parser.add_argument(flag, dest=name, default=default, nargs=nargs, metavar=metavar,
+                            help=_help(opt, default))
 
 
-def lattice_dtype(args: argparse.Namespace):
-    """The numpy dtype that --precision names."""
-    return PRECISIONS[args.precision]
+def flag_name(cls: type) -> Callable[[str], str]:
+    """Field name -> its flag in messages (``width_px`` -> ``--size``)."""
+    defs = options_of(cls)
+    spread = {f: flag_of(n, o, d) for n, (o, d) in defs.items() for f in o.spread}
+
+    def name(field: str) -> str:
+        if field in spread:
+            return spread[field]
+        opt, default = defs[field]
+        return flag_of(field, opt, default).replace("--no-", "--") or field
+    return name
 
 
-def box_from_args(args: argparse.Namespace, state: State) -> Box | None:
-    """The cube that --box asks for (half-width about the middle of the state's centres), or None."""
-    return Box(default_box(state).centre_a0, args.box) if args.box is not None else None
+def options_from(args: argparse.Namespace, cls: type) -> Any:
+    """The options dataclass `cls` from parsed arguments (checked as gallery values are)."""
+    name = flag_name(cls)
+    values: dict[str, Any] = {}
+    for field, (opt, _) in options_of(cls).items():
+        if not hasattr(args, field):
+            continue
+        value = getattr(args, field)
+        if opt.spread and isinstance(value, str):
+            try:
+                parts = opt.parse(value)
+            except ValueError as exc:
+                raise UserInputError(f"{name(field)}: {exc}") from None
+            values.update(zip(opt.spread, parts))
+        else:
+            values[field] = value
+    if hasattr(cls, "STATE_NARGS"):
+        states = args.states
+        values["states"] = () if states is None else (states,) if isinstance(states, str) else tuple(states)
+    for pair in getattr(cls, "EXCLUSIVE", ()):
+        given = [f for f in pair if values.get(f) is not None]
+        if len(given) > 1:
+            raise UserInputError(f"{name(given[1])} does not go with {name(given[0])} (give one of them)")
+    return build(cls, values, text=True, name_of=name)
 
 
-def add_field_arguments(parser: argparse.ArgumentParser, what: str = "use") -> None:
-    """--field FILE and the grid options of an .npy field (--spacing-a0, --origin-a0)."""
-    parser.add_argument("--field", metavar="FILE", default=None,
-                        help=f"{what} psi stored in an .npy/.npz file instead of a STATE")
-    parser.add_argument("--spacing-a0", type=float, default=None,
-                        help="grid step of an .npy field in a0 (an .npz file carries its own)")
-    parser.add_argument("--origin-a0", type=float, nargs=3, default=None, metavar=("X", "Y", "Z"),
-                        help="coordinates of the first grid point of an .npy field (default: centred)")
+def field_source(options) -> tuple[Any, str]:
+    """(psi source, label): the user field of ``--field`` as a Lattice, or None and ''."""
+    if options.field is None:
+        return None, ""
+    from pathlib import Path
 
-
-def field_from_args(args: argparse.Namespace):
-    """The user field (a Lattice with ``state=None``) that --field and its grid options name."""
     from ..lattice.userfield import load_field
 
-    return load_field(args.field, args.spacing_a0, args.origin_a0)
+    lattice = load_field(options.field, options.field_spacing_a0,
+                         list(options.field_origin_a0) if options.field_origin_a0 else None)
+    return lattice, Path(options.field).stem
 
 
-def add_picture_arguments(parser: argparse.ArgumentParser, title_default: str, report_what: str,
-                          default_dpi: float = 200.0, width_in: float = 6.4) -> None:
-    """--units, --title, --dpi, --out and --report of a command that draws one matplotlib figure."""
-    from ..state.units import LENGTH_UNITS_PER_A0
+def add_command(subparsers, name: str, cls: type, run: Callable[[Any, argparse.Namespace], int], *,
+                help: str, description: str, preload: tuple[str, ...] = ()) -> argparse.ArgumentParser:
+    """Add subcommand `name` whose options are those of `cls`; ``run(options, args)`` does the work.
 
-    parser.add_argument("--units", choices=tuple(LENGTH_UNITS_PER_A0), default="a0",
-                        help="length unit of the axes (default a0)")
-    parser.add_argument("--title", default=None, help=f"title (default: {title_default})")
-    parser.add_argument("--dpi", type=float, default=default_dpi,
-                        help=f"dots per inch of PNG output (default {default_dpi:g}; the figure is "
-                             f"{width_in:g} in wide)")
-    parser.add_argument("--out", metavar="FILE", default=None,
-                        help="output picture; the suffix .png, .svg or .pdf sets the format "
-                             "(default: named after the state, PNG, in the current folder)")
-    parser.add_argument("--report", metavar="FILE.json", help=f"also write {report_what} as JSON")
+    `preload` names the heavy modules the work needs: they are imported before the work
+    starts (see :func:`orbitalrender.cli.main`), while Ctrl-C still ends the process at once,
+    because some libraries turn an interrupt during their import into another error.
+    """
+    p = subparsers.add_parser(name, help=help, description=description)
+    add_options(p, cls)
+    p.set_defaults(run=lambda args: run(options_from(args, cls), args), preload=preload)
+    return p

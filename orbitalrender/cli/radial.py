@@ -1,83 +1,42 @@
 """``orbitalrender radial``: R(r), r^2 R(r)^2 and P(r' < r) of one or several states (picture step).
 
-Each STATE must be one (n, l) shell on one centre (an eigenstate, a real orbital
-or a combination within one shell).  Radial nodes, the most probable radius and
-the radius holding FRACTION are marked and listed; the report carries them too.
+The options are those of :class:`orbitalrender.jobs.RadialOptions`; the work is
+:func:`orbitalrender.jobs.radial_job`.
 """
 
 from __future__ import annotations
 
 import argparse
 
-from ..atomic import check_writable
-from ..errors import UserInputError
-from ..picture.output import (
-    check_dpi,
-    check_output_paths,
-    default_output_path,
-    save_figure,
-    write_report,
-)
-from ..picture.radialplot import RADIAL_QUANTITIES, radial_figure, radial_metadata
-from ..state.limits import check_fraction
-from .common import add_picture_arguments, add_state_arguments, state_from_args
+from ..jobs.radial import RadialOptions, radial_job
+from ..jobs.shared import parse_states
+from ..jobs.write import write_picture
+from .common import add_command
 
-__all__ = ["register", "run", "parse_quantities"]
-
-_DEFAULT_FRACTION = 0.9
-_DEFAULT_DPI = 200.0
-
-
-def parse_quantities(text: str) -> list[str]:
-    """``"all"`` or a comma-separated list of R, density, cumulative.
-
-    Examples
-    --------
-    >>> parse_quantities("density,R")
-    ['density', 'R']
-    >>> parse_quantities("all")
-    ['R', 'density', 'cumulative']
-    """
-    if text.strip().lower() == "all":
-        return list(RADIAL_QUANTITIES)
-    names = [t.strip() for t in text.split(",") if t.strip()]
-    bad = [t for t in names if t not in RADIAL_QUANTITIES]
-    if bad or not names:
-        raise UserInputError(f"unknown --quantity {text!r}: use all, or one or more of "
-                             f"{', '.join(RADIAL_QUANTITIES)} separated by commas")
-    return list(dict.fromkeys(names))
+__all__ = ["register", "run"]
 
 
 def register(subparsers) -> None:
-    p = subparsers.add_parser(
-        "radial", help="plot R(r), r^2 R^2 and P(r' < r) with nodes and radii marked",
+    add_command(
+        subparsers, "radial", RadialOptions, run,
+        help="plot R(r), r^2 R^2 and P(r' < r) with nodes and radii marked",
         description="Plot the radial function R(r), the radial density r^2 R(r)^2 and the "
                     "cumulative probability P(r' < r) of each STATE, with the radial nodes, the "
-                    "most probable radius and the radius holding FRACTION marked.")
-    add_state_arguments(p, many=True)
-    p.add_argument("--quantity", default="all", metavar="Q",
-                   help="R, density, cumulative, a comma-separated list of them, or all (default)")
-    p.add_argument("--fraction", type=float, default=_DEFAULT_FRACTION, metavar="F",
-                   help=f"mark the radius holding this probability, between 0 and 1 "
-                        f"(default {_DEFAULT_FRACTION:g})")
-    add_picture_arguments(p, "from the states", "the marked values", _DEFAULT_DPI)
-    p.set_defaults(run=run)
+                    "most probable radius and the radius holding FRACTION marked.",
+        preload=("orbitalrender.picture.radialplot", "orbitalrender.picture.output"))
 
 
-def run(args: argparse.Namespace) -> int:
-    quantities = parse_quantities(args.quantity)
-    check_fraction(args.fraction, "--fraction")
-    check_dpi(args.dpi)
-    out = check_output_paths(args.out, args.report)
-    states = [state_from_args(args, text) for text in args.state]
-    labels = [s.label for s in states]
+def run(options: RadialOptions, args: argparse.Namespace) -> int:
+    from ..atomic import check_writable
+    from ..picture.output import check_output_paths, default_output_path
+
+    out = check_output_paths(options.out, options.report)
+    states = parse_states(options.states, options)
     if out is None:
-        out = default_output_path(" ".join(labels), "radial")
+        out = default_output_path(" ".join(s.label for s in states), "radial")
         check_writable(out)
-    fig, marks = radial_figure(states, quantities, args.fraction, args.units, title=args.title)
-    metadata = radial_metadata(states, marks, quantities, args.units, dpi=args.dpi)
-    save_figure(fig, out, metadata, dpi=args.dpi)
-    if args.report:
-        write_report(args.report, metadata | {"file": str(out)})
+    fig, metadata = radial_job(states, options)
+    write_picture(fig, out, metadata, dpi=options.dpi, transparent=options.transparent,
+                  report=options.report)
     print(f"wrote {out}")
     return 0

@@ -48,6 +48,7 @@ from ..lattice.sampler import default_box, sample
 from ..state.model import State
 from ..surface.level import LevelResult, level_for_fraction
 from ..surface.model import Surface
+from .options import DEFAULT_LIMIT_GIB
 
 __all__ = ["CACHE_FORMAT", "DEFAULT_LIMIT_BYTES", "CACHE_KINDS", "CacheStats", "DiskCache",
            "canonical_json", "entry_key", "state_key", "level_key", "surface_key", "cached_lattice",
@@ -56,7 +57,7 @@ __all__ = ["CACHE_FORMAT", "DEFAULT_LIMIT_BYTES", "CACHE_KINDS", "CacheStats", "
 #: Bumped when the layout of the stored files changes.
 CACHE_FORMAT = 1
 #: Default size bound of a cache folder: 2 GiB (about 128 lattices of 128^3 complex64).
-DEFAULT_LIMIT_BYTES = 2 * 1024**3
+DEFAULT_LIMIT_BYTES = int(DEFAULT_LIMIT_GIB * 1024**3)
 CACHE_KINDS = ("lattice", "level", "surface")
 #: Subpackages whose source decides each kind of entry.
 _SOURCES = {

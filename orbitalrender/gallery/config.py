@@ -8,7 +8,7 @@ Every mistake raises :class:`ConfigError` with one line that names the file,
 the table (``defaults`` or ``output 'NAME' (outputs[i])``) and the key, and says
 what was expected, e.g.::
 
-    demo.toml: output 'shell3' (outputs[2]): key 'fraction' must be a number in (0, 0.9999], got 1.5
+    demo.toml: output 'shell3' (outputs[2]): key 'fraction' must be a number in (0, 1), got 1.5
 
 Validation touches no output: it parses every STATE, checks that user-field
 files exist, and refuses duplicate output names and file names, so a broken
@@ -17,7 +17,6 @@ config leaves the results of earlier runs as they were.
 
 from __future__ import annotations
 
-import math
 import os
 import re
 import tomllib
@@ -26,25 +25,15 @@ from dataclasses import dataclass, field
 from pathlib import Path, PurePosixPath
 from typing import Any
 
-from ..cli.radial import parse_quantities
-from ..colormap import PHASE_SCHEMES
 from ..errors import UserInputError
-from ..lattice.sampler import PRECISIONS
-from ..mesh.print_options import BASES
-from ..picture.camera import PROJECTIONS, Camera
-from ..picture.cutaway import parse_cutaway
-from ..picture.density import DENSITY_SCALES
-from ..picture.layout import shell_states
-from ..picture.output import DPI_RANGE, check_dpi
-from ..picture.plane import MAX_PIXELS, MIN_PIXELS, PLANE_NAMES, plane
-from ..state.limits import FRACTION_MAX, SIZE_MM_RANGE, Z_RANGE
+from ..jobs import KINDS as JOB_OPTIONS
+from ..jobs.mesh import MESH_SUFFIXES, check_mesh
+from ..jobs.option import Option, OptionError, build, convert, expected_text, key_of, options_of, shown
 from ..state.model import State
-from ..state.notation import parse_state
 from ..state.phase import is_real
-from ..state.units import LENGTH_UNITS_PER_A0, femtoseconds_to_au, nucleus_reduced_mass_ratio
 
 __all__ = ["KINDS", "SCHEMA", "TOP_KEYS", "ConfigError", "OutputSpec", "GalleryConfig",
-           "load_config", "parse_config", "Key"]
+           "load_config", "parse_config", "job_options", "Key"]
 
 #: What an output can be, and the suffixes each kind may write (the first is the default).
 KINDS: dict[str, tuple[str, ...]] = {
@@ -52,12 +41,9 @@ KINDS: dict[str, tuple[str, ...]] = {
     "layout": (".png", ".svg", ".pdf"),
     "section": (".png", ".svg", ".pdf"),
     "radial": (".png", ".svg", ".pdf"),
-    "mesh": (".stl", ".glb", ".ply", ".obj"),
+    "mesh": MESH_SUFFIXES,
 }
-_PICTURES = ("figure", "layout", "section", "radial")
-_SURFACES = ("figure", "layout", "mesh")
 _FIELD_KINDS = ("figure", "section", "mesh")
-_ALL = tuple(KINDS)
 
 #: Top-level keys besides the ``defaults`` table and the ``outputs`` list.
 TOP_KEYS = ("title", "description", "defaults", "outputs")
@@ -99,53 +85,7 @@ class Key:
     output_only: bool = False
 
 
-# -- checkers ---------------------------------------------------------------------------
-def _is_number(v: Any) -> bool:
-    return isinstance(v, (int, float)) and not isinstance(v, bool) and math.isfinite(v)
-
-
-def _number(lo: float | None = None, hi: float | None = None, lo_open: bool = False,
-            hi_open: bool = False, integer: bool = False):
-    """Checker for a number (or an integer) in a range; returns the value as float or int."""
-    def check(v, ctx):
-        ok = (isinstance(v, int) and not isinstance(v, bool)) if integer else _is_number(v)
-        if ok and lo is not None:
-            ok = v > lo if lo_open else v >= lo
-        if ok and hi is not None:
-            ok = v < hi if hi_open else v <= hi
-        if not ok:
-            raise _Bad(None)
-        return int(v) if integer else float(v)
-    return check
-
-
-def _range_text(what: str, lo, hi, lo_open=False, hi_open=False) -> str:
-    if lo is None and hi is None:
-        return f"a finite {what}"
-    if hi is None:
-        return f"{'an' if what == 'integer' else 'a'} {what} {'>' if lo_open else '>='} {lo:g}"
-    left, right = "(" if lo_open else "[", ")" if hi_open else "]"
-    return f"{'an' if what == 'integer' else 'a'} {what} in {left}{lo:g}, {hi:g}{right}"
-
-
-def _choice(options: tuple[str, ...]):
-    def check(v, ctx):
-        if not isinstance(v, str) or v not in options:
-            raise _Bad(None)
-        return v
-    return check
-
-
-def _choice_text(options) -> str:
-    return "one of " + ", ".join(f"'{o}'" for o in options)
-
-
-def _boolean(v, ctx):
-    if not isinstance(v, bool):
-        raise _Bad(None)
-    return v
-
-
+# -- checkers of the gallery's own keys ---------------------------------------------------
 def _text(v, ctx):
     if not isinstance(v, str):
         raise _Bad(None)
@@ -164,42 +104,12 @@ def _state_list(v, ctx):
     return list(v)
 
 
-def _numbers(count: int | None = None, lo: float | None = None):
-    def check(v, ctx):
-        if (not isinstance(v, list) or not v or (count is not None and len(v) != count)
-                or not all(_is_number(x) and (lo is None or x > lo) for x in v)):
-            raise _Bad(None)
-        return [float(x) for x in v]
-    return check
-
-
-def _quantities(v, ctx):
-    """One name or a list of names (the radial command's --quantity, as TOML)."""
-    if isinstance(v, str):
-        v = [v]
-    if not isinstance(v, list) or not v or not all(isinstance(q, str) for q in v):
-        raise _Bad(None)
-    return v
-
-
-def _nucleus(v, ctx):
-    if isinstance(v, bool) or not isinstance(v, (str, int, float)):
-        raise _Bad(None)
-    try:
-        nucleus_reduced_mass_ratio(v)
-    except ValueError:
-        raise _Bad(None) from None
-    return v
-
-
 def _existing_file(v, ctx):
-    if not isinstance(v, str) or not v:
-        raise _Bad(None)
     path = Path(v) if Path(v).is_absolute() else ctx["folder"] / v
-    if not path.is_file():
+    if not v or not path.is_file():
         raise _Bad(f"the name of an existing .npy or .npz file (looked for {path})")
     if path.suffix.lower() not in (".npy", ".npz"):
-        raise _Bad(None)
+        raise _Bad("the name of an existing .npy or .npz file")
     return str(path)
 
 
@@ -210,7 +120,9 @@ def _name(v, ctx):
 
 
 def _kind(v, ctx):
-    return _choice(tuple(KINDS))(v, ctx)
+    if not isinstance(v, str) or v not in KINDS:
+        raise _Bad(None)
+    return v
 
 
 def _file(v, ctx):
@@ -224,26 +136,35 @@ def _file(v, ctx):
     return str(p)
 
 
-def _by(first, fn: Callable[[Any], Any]):
-    """Checker: `first` (a type/range checker), then `fn(value)`, the library's own check,
-    whose ValueError message becomes the 'expected' text."""
+def _option_check(opt: Option, then: Callable[[Any, dict], Any] | None = None):
+    """Checker of a jobs option (the same check and wording as the command line's)."""
     def check(v, ctx):
-        v = first(v, ctx)
         try:
-            fn(v)
-        except ValueError as exc:
-            raise _Bad(f"usable here ({exc})") from None
-        return v
+            v = convert(opt, v)
+        except OptionError as exc:
+            raise _Bad(exc.expected) from None
+        return then(v, ctx) if then is not None else v
     return check
 
 
-def _lattice_resolution(v, ctx):
-    return _number(8, 1024, integer=True)(v, ctx)
+#: Keys whose value is checked further by the gallery (a file name relative to the config).
+_MORE = {"field": _existing_file}
 
 
-_LENGTH_UNITS = tuple(LENGTH_UNITS_PER_A0)
-#: Largest range of the logarithmic density scale of a section, as the section command allows.
-_MAX_DECADES = 12.0
+def _option_keys() -> list[Key]:
+    """One Key per gallery key of the jobs' options dataclasses, with the kinds that have it."""
+    found: dict[str, tuple[Option, list[str]]] = {}
+    for kind in KINDS:
+        cls = JOB_OPTIONS[kind]
+        for field_name, (opt, _) in options_of(cls).items():
+            key = key_of(field_name, opt)
+            if key and field_name not in getattr(cls, "NOT_IN_GALLERY", ()):
+                found.setdefault(key, (opt, []))[1].append(kind)
+    return [Key(key, tuple(kinds), _option_check(opt, _MORE.get(key)), expected_text(opt))
+            for key, (opt, kinds) in found.items()]
+
+
+_ALL = tuple(KINDS)
 
 # -- the schema -------------------------------------------------------------------------
 _K = Key
@@ -251,81 +172,14 @@ SCHEMA: dict[str, Key] = {k.name: k for k in [
     # identity
     _K("name", _ALL, _name, f"a name of letters, digits, '.', '_' or '-' (at most {_MAX_NAME}), "
        "starting with a letter or digit", output_only=True),
-    _K("kind", _ALL, _kind, _choice_text(tuple(KINDS)), output_only=True),
+    _K("kind", _ALL, _kind, "one of " + ", ".join(f"'{k}'" for k in KINDS), output_only=True),
     _K("file", _ALL, _file, "a relative file name inside the output folder", output_only=True),
     _K("caption", _ALL, _text, "a string"),
     # the state
     _K("state", ("figure", "section", "mesh", "layout"), _state_text, "a STATE string, e.g. '3dz2'"),
     _K("states", ("radial", "layout"), _state_list, "a non-empty list of STATE strings"),
-    _K("Z", _ALL, _number(*Z_RANGE), _range_text("number", *Z_RANGE)),
-    _K("nucleus", _ALL, _nucleus, "a nucleus preset (infinite, hydrogen, deuterium, positronium, "
-       "muonic-hydrogen) or a nucleus-to-electron mass ratio"),
-    _K("time", _ALL, _number(), "a finite number"),
-    _K("time_unit", _ALL, _choice(("au", "fs")), _choice_text(("au", "fs"))),
-    _K("times", ("layout",), _numbers(), "a non-empty list of finite numbers"),
-    _K("field", _FIELD_KINDS, _existing_file, "the name of an existing .npy or .npz file"),
-    _K("field_spacing_a0", _FIELD_KINDS, _number(0, lo_open=True),
-       _range_text("number", 0, None, lo_open=True)),
-    _K("field_origin_a0", _FIELD_KINDS, _numbers(3), "a list of three finite numbers"),
-    # lattice and surface
-    _K("fraction", _ALL, _number(0, FRACTION_MAX, lo_open=True),
-       _range_text("number", 0, FRACTION_MAX, lo_open=True)),
-    _K("resolution", _SURFACES, _lattice_resolution, _range_text("integer", 8, 1024)),
-    _K("box_a0", _SURFACES, _number(0, lo_open=True), _range_text("number", 0, None, lo_open=True)),
-    _K("precision", _SURFACES, _choice(tuple(PRECISIONS)), _choice_text(tuple(PRECISIONS))),
-    # pictures
-    _K("phase_map", ("figure", "layout", "section", "mesh"), _choice(PHASE_SCHEMES),
-       _choice_text(PHASE_SCHEMES)),
-    _K("units", _ALL, _choice(_LENGTH_UNITS), _choice_text(_LENGTH_UNITS)),
-    # 3D pictures
-    _K("width_px", ("figure", "layout"), _number(16, 8192, integer=True),
-       _range_text("integer", 16, 8192)),
-    _K("height_px", ("figure", "layout"), _number(16, 8192, integer=True),
-       _range_text("integer", 16, 8192)),
-    _K("dpi", _PICTURES, _by(_number(), check_dpi), _range_text("number", *DPI_RANGE)),
-    _K("azimuth_deg", ("figure", "layout"), _number(), "a finite number"),
-    _K("elevation_deg", ("figure", "layout"), _number(-90, 90), _range_text("number", -90, 90)),
-    _K("zoom", ("figure", "layout"), _by(_number(0, lo_open=True), lambda v: Camera(zoom=v)),
-       "a number in the renderer's zoom range (1 fits the surface)"),
-    _K("projection", ("figure", "layout"), _choice(PROJECTIONS), _choice_text(PROJECTIONS)),
-    _K("transparent", _PICTURES, _boolean, "true or false"),
-    _K("cutaway", ("figure", "layout"), _by(_text, parse_cutaway),
-       "'front', 'quadrant' or conditions such as 'x>0&y>0'"),
-    _K("translucent_outer", ("figure", "layout"), _number(0, 1, lo_open=True),
-       _range_text("number", 0, 1, lo_open=True)),
-    _K("nodal_axis", ("figure", "layout"), _boolean, "true or false"),
-    _K("supersample", ("figure", "layout"), _number(1, 4, integer=True), _range_text("integer", 1, 4)),
-    _K("legend", ("figure", "layout"), _boolean, "true or false"),
-    _K("panel_px", ("layout",), _number(64, 4096, integer=True), _range_text("integer", 64, 4096)),
-    _K("title", ("figure", "section", "radial"), _text, "a string"),
-    _K("shell", ("layout",), _number(1, 6, integer=True), _range_text("integer", 1, 6)),
-    _K("basis", ("layout",), _choice(("real", "complex")), _choice_text(("real", "complex"))),
-    _K("columns", ("layout",), _number(1, 64, integer=True), _range_text("integer", 1, 64)),
-    # sections
-    _K("plane", ("section",), _choice(PLANE_NAMES), _choice_text(PLANE_NAMES)),
-    _K("normal", ("section",), _by(_numbers(3), plane), "three numbers, not all zero"),
-    _K("offset_a0", ("section",), _number(), "a finite number"),
-    _K("extent_a0", ("section",), _number(0, lo_open=True), _range_text("number", 0, None, lo_open=True)),
-    _K("pixels", ("section",), _number(MIN_PIXELS, MAX_PIXELS, integer=True),
-       _range_text("integer", MIN_PIXELS, MAX_PIXELS)),
-    _K("scale", ("section",), _choice(DENSITY_SCALES), _choice_text(DENSITY_SCALES)),
-    _K("decades", ("section",), _number(0, _MAX_DECADES, lo_open=True),
-       _range_text("number", 0, _MAX_DECADES, lo_open=True)),
-    _K("nodes", ("section",), _boolean, "true or false"),
-    _K("contour", ("section",), _boolean, "true or false"),
-    # radial plots
-    _K("quantity", ("radial",), _by(_quantities, lambda v: parse_quantities(",".join(v))),
-       "'all', or one or a list of 'R', 'density', 'cumulative'"),
-    # meshes
-    _K("size_mm", ("mesh",), _number(*SIZE_MM_RANGE), _range_text("number", *SIZE_MM_RANGE)),
-    _K("printable", ("mesh",), _boolean, "true or false"),
-    _K("base", ("mesh",), _choice(BASES), _choice_text(BASES)),
-    _K("print_cutaway", ("mesh",), _boolean, "true or false"),
-    _K("min_thickness_mm", ("mesh",), _number(0, lo_open=True), _range_text("number", 0, None, lo_open=True)),
-    _K("min_gap_mm", ("mesh",), _number(0, lo_open=True), _range_text("number", 0, None, lo_open=True)),
-    _K("strut_fraction", ("mesh",), _number(0, 0.5, lo_open=True),
-       _range_text("number", 0, 0.5, lo_open=True)),
-    _K("split_sign", ("mesh",), _boolean, "true or false"),
+    # every option of the jobs
+    *_option_keys(),
 ]}
 
 
@@ -386,14 +240,7 @@ def _checked(key: str, value: Any, ctx: dict, path: Path, table: str) -> Any:
         return spec.check(value, ctx)
     except _Bad as bad:
         expected = bad.args[0] or spec.expected
-        raise ConfigError(f"{_where(path, table, key)} must be {expected}, got {_shown(value)}") from None
-
-
-def _shown(value: Any) -> str:
-    if isinstance(value, dict):
-        return "a table"
-    text = repr(value) if not isinstance(value, bool) else str(value).lower()
-    return text if len(text) <= 60 else text[:57] + "..."
+        raise ConfigError(f"{_where(path, table, key)} must be {expected}, got {shown(value)}") from None
 
 
 def _check_known(table: Mapping, path: Path, where: str, output: bool) -> None:
@@ -410,6 +257,10 @@ def _check_known(table: Mapping, path: Path, where: str, output: bool) -> None:
 
 def _parse_states(opts: dict, kind: str, path: Path, table: str) -> tuple[State, ...]:
     """Parse the STATE strings with the output's Z, nucleus and time; errors name the key."""
+    from ..picture.layout import shell_states
+    from ..state.notation import parse_state
+    from ..state.units import femtoseconds_to_au, nucleus_reduced_mass_ratio
+
     mu = nucleus_reduced_mass_ratio(opts.get("nucleus", "infinite"))
     z = opts.get("Z", 1.0)
     unit = opts.get("time_unit", "au")
@@ -461,19 +312,11 @@ def _check_together(opts: dict, kind: str, file: str, states: tuple[State, ...],
     if "plane" in opts and "normal" in opts:
         raise bad("normal", "does not go with 'plane' (give one of them)")
     if kind == "mesh":
-        printing = [k for k in ("printable", "print_cutaway") if opts.get(k)]
-        if printing and "size_mm" not in opts:
-            raise bad(printing[0], "needs 'size_mm', the printed size in millimetres")
-        if opts.get("print_cutaway") and not opts.get("printable"):
-            raise bad("print_cutaway", "is part of 'printable = true'")
-        if opts.get("split_sign"):
-            if opts.get("printable"):
-                raise bad("split_sign", "does not go with 'printable' (bodies for two materials "
-                                        "are written as they are)")
-            if file.lower().endswith(".stl"):
-                raise bad("split_sign", "needs a file format that keeps bodies apart: .glb, .ply or .obj")
-            if states and not is_real(states[0]):
-                raise bad("split_sign", "needs a real state (psi real up to one global phase)")
+        try:
+            check_mesh(job_options("mesh", opts), file, lambda k: f"'{k}'",
+                       state=states[0] if states else None, one_file=True)
+        except UserInputError as exc:
+            raise ConfigError(f"{_where(path, table, None)}: {exc}") from None
     if opts.get("phase_map") == "sign" and not all(is_real(s) for s in states):
         raise bad("phase_map", "cannot be 'sign' for a complex state (psi not real up to one "
                                "global phase): use 'uniform' or 'cvd'")
@@ -481,6 +324,20 @@ def _check_together(opts: dict, kind: str, file: str, states: tuple[State, ...],
         st = states[0]
         if not st.is_single_centre or any(t.m == 0 for t in st.terms):
             raise bad("nodal_axis", "needs a state whose terms all have m != 0 about one centre")
+
+
+def job_options(kind: str, options: Mapping[str, Any]) -> Any:
+    """The jobs' options dataclass of `kind` from an output's checked `options` (gallery keys);
+    keys left unset take the jobs' defaults, as on the command line.
+
+    Examples
+    --------
+    >>> job_options("mesh", {"caption": "a", "size_mm": 40}).fraction
+    0.9
+    """
+    cls = JOB_OPTIONS[kind]
+    fields = {key_of(name, opt): name for name, (opt, _) in options_of(cls).items()}
+    return build(cls, {fields[k]: v for k, v in options.items() if k in fields})
 
 
 def parse_config(data: Mapping[str, Any], path: str | os.PathLike = "config.toml") -> GalleryConfig:
@@ -496,7 +353,7 @@ def parse_config(data: Mapping[str, Any], path: str | os.PathLike = "config.toml
     ...     parse_config({"outputs": [{"name": "p", "kind": "radial", "states": ["2pz"], "fraction": 2}]})
     ... except ConfigError as exc:
     ...     print(exc)
-    config.toml: output 'p' (outputs[0]): key 'fraction' must be a number in (0, 0.9999], got 2
+    config.toml: output 'p' (outputs[0]): key 'fraction' must be a number in (0, 1), got 2
     """
     path = Path(path)
     folder = path.parent
@@ -506,17 +363,17 @@ def parse_config(data: Mapping[str, Any], path: str | os.PathLike = "config.toml
                               f"{', '.join(TOP_KEYS)}")
     for key in ("title", "description"):
         if key in data and not isinstance(data[key], str):
-            raise ConfigError(f"{path}: key '{key}' must be a string, got {_shown(data[key])}")
+            raise ConfigError(f"{path}: key '{key}' must be a string, got {shown(data[key])}")
     defaults = data.get("defaults", {})
     if not isinstance(defaults, dict):
-        raise ConfigError(f"{path}: key 'defaults' must be a table, got {_shown(defaults)}")
+        raise ConfigError(f"{path}: key 'defaults' must be a table, got {shown(defaults)}")
     _check_known(defaults, path, "defaults", output=False)
     ctx = {"folder": folder}
     checked_defaults = {k: _checked(k, v, ctx, path, "defaults") for k, v in defaults.items()}
     outputs = data.get("outputs")
     if not isinstance(outputs, list) or not outputs or not all(isinstance(o, dict) for o in outputs):
         raise ConfigError(f"{path}: key 'outputs' must be a non-empty list of tables "
-                          "([[outputs]] entries), got " + ("nothing" if outputs is None else _shown(outputs)))
+                          "([[outputs]] entries), got " + ("nothing" if outputs is None else shown(outputs)))
     specs: list[OutputSpec] = []
     names: dict[str, int] = {}
     files: dict[str, str] = {}

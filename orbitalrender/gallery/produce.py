@@ -4,9 +4,9 @@
 :class:`Request` named by its cache key); :func:`make_request` makes one of them
 in a worker; :func:`make_output` draws and writes one output, its JSON report
 and its thumbnail, taking surfaces and levels from the cache.  Every kind calls
-the same library functions as its command (``figure``, ``layout`` -> the 3D
-renderer and layouts, ``section``, ``radial``, ``mesh``), so a gallery output and
-the command's output agree.
+the same job as its command (:mod:`orbitalrender.jobs`: ``figure`` and ``layout``
+-> ``figure_job``, ``section_job``, ``radial_job``, ``mesh_job``) with the options
+dataclass built from its keys, so a gallery output and the command's output agree.
 """
 
 from __future__ import annotations
@@ -15,23 +15,23 @@ import hashlib
 import time
 import traceback
 from collections.abc import Callable
-from dataclasses import dataclass, field
-from functools import cache
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
 from ..errors import UserInputError
+from ..jobs.shared import box_of
 from ..lattice.grid import Box, Lattice
 from ..lattice.memory import MemoryLimitError
-from ..lattice.sampler import PRECISIONS, default_box
+from ..lattice.sampler import PRECISIONS
 from ..state.model import State
 from ..surface.level import LevelResult
 from ..surface.model import Surface
 from .cache import CacheStats, DiskCache, cached_lattice, cached_level, cached_surface, level_key, surface_key
-from .config import OutputSpec
+from .config import OutputSpec, job_options
 
 __all__ = ["Caps", "Request", "OutputRecord", "requests_for", "make_request", "make_output",
-           "THUMBNAIL_PX", "INDEX_FOLDER", "COMMAND_OF", "option"]
+           "THUMBNAIL_PX", "INDEX_FOLDER"]
 
 #: Longer side of the thumbnails on the index page, px.
 THUMBNAIL_PX = 320
@@ -73,14 +73,6 @@ class Request:
     level_rule: str = "quadrature"  # "lattice" in drafts: the level from the lattice's own sum
 
 
-def _box(spec: OutputSpec, state: State | None) -> Box | None:
-    """The lattice cube: ``box_a0`` is its half-width about the middle of the state's centres
-    (as ``--box`` of the commands); None for the default box."""
-    if "box_a0" not in spec.options or state is None:
-        return None
-    return Box(default_box(state).centre_a0, spec.options["box_a0"])
-
-
 def _file_sha256(path: str) -> str:
     h = hashlib.sha256()
     with open(path, "rb") as fh:
@@ -101,10 +93,11 @@ def _field_parts(field_desc: tuple) -> dict:
 
 
 def _surface_request(spec: OutputSpec, state: State | None, caps: Caps) -> Request:
-    fraction = float(option(spec, "fraction"))
-    resolution = caps.lattice(int(option(spec, "resolution")))
-    box = _box(spec, state)
-    precision = option(spec, "precision")
+    options = job_options(spec.kind, spec.options)
+    fraction = options.fraction
+    resolution = caps.lattice(options.resolution)
+    box = box_of(options, state)
+    precision = options.precision
     if state is None:
         desc = _field_description(spec)
         key = surface_key(_field_parts(desc), fraction, resolution, box, PRECISIONS[precision])
@@ -115,7 +108,7 @@ def _surface_request(spec: OutputSpec, state: State | None, caps: Caps) -> Reque
 
 
 def _level_request(spec: OutputSpec, state: State | None) -> Request:
-    fraction = float(option(spec, "fraction"))
+    fraction = job_options(spec.kind, spec.options).fraction
     if state is None:
         desc = _field_description(spec)
         return Request("level", level_key(_field_parts(desc), fraction), None, fraction, field=desc)
@@ -243,8 +236,10 @@ class _Work:
     caps: Caps
     stats: CacheStats
 
-    def opt(self, key: str) -> Any:
-        return option(self.spec, key)
+    @property
+    def options(self) -> Any:
+        """The output's options dataclass (its own keys, else the jobs' defaults)."""
+        return job_options(self.spec.kind, self.spec.options)
 
     def surfaces(self) -> list[Surface]:
         return [_surface(r, self.cache, self.stats) for r in requests_for(self.spec, self.caps)]
@@ -333,199 +328,51 @@ def _state_of(work: _Work) -> State | None:
     return work.spec.states[0] if work.spec.states else None
 
 
-# -- drawing ----------------------------------------------------------------------------
-#: Output kind -> the command whose options (and defaults) its keys mirror.
-COMMAND_OF = {"figure": "figure", "layout": "figure", "section": "section", "radial": "radial",
-              "mesh": "mesh"}
-#: Config key -> the option's destination in the commands' parsers, where the names differ.
-_DEST = {"azimuth_deg": "azimuth", "elevation_deg": "elevation", "offset_a0": "offset"}
-
-
-@cache
-def _command_defaults(command: str) -> dict[str, Any]:
-    """The defaults of the options of `command` (from its argparse parser)."""
-    import argparse
-
-    from ..cli import build_parser
-
-    for action in build_parser()._actions:
-        if isinstance(action, argparse._SubParsersAction):
-            sub = action.choices[command]
-            return {a.dest: a.default for a in sub._actions if a.default is not argparse.SUPPRESS}
-    raise LookupError(command)  # pragma: no cover - the command line always has subcommands
-
-
-def option(spec: OutputSpec, key: str) -> Any:
-    """The value of config `key` for `spec`: its own or the default's, else the default of the
-    same option of the output's command (or of ``figure``, where the command has none)."""
-    if key in spec.options:
-        return spec.options[key]
-    dest = _DEST.get(key, key)
-    for command in (COMMAND_OF[spec.kind], "figure"):
-        value = _command_defaults(command).get(dest)
-        if value is not None:
-            return value
-    return None
-
-
-def _render_options(work: _Work) -> dict[str, Any]:
-    from ..picture.camera import Camera
-    from ..picture.cutaway import parse_cutaway
-
-    o = work.spec.options
-    camera = Camera(option(work.spec, "azimuth_deg"), option(work.spec, "elevation_deg"),
-                    option(work.spec, "zoom"), option(work.spec, "projection"))
-    return {"camera": camera, "phase_map": work.opt("phase_map"),
-            "cutaway": parse_cutaway(o["cutaway"]) if "cutaway" in o else None,
-            "translucent_outer": o.get("translucent_outer"), "nodal_axis": o.get("nodal_axis", False),
-            "supersample": work.opt("supersample")}
-
-
-def _compose_options(work: _Work) -> dict[str, Any]:
-    legend = work.spec.options.get("legend", True)
-    return {"dpi": work.opt("dpi"), "units": work.opt("units"), "legend": legend, "scale_bar": legend,
-            "transparent": work.spec.options.get("transparent", False)}
-
-
-def _view(work: _Work, render, size: tuple[int, int]) -> dict[str, Any]:
-    """The ``view`` entry of the figure command's report."""
-    cam = render.camera
-    return {"azimuth_deg": cam.azimuth_deg, "elevation_deg": cam.elevation_deg, "zoom": cam.zoom,
-            "projection": cam.projection, "cutaway": work.spec.options.get("cutaway"),
-            "translucent_outer": work.spec.options.get("translucent_outer"),
-            "nodal_axis": work.spec.options.get("nodal_axis", False), "phase_map": render.phase_map,
-            "size_px": list(size), "dpi": work.opt("dpi")}
-
-
-def _panel_record(surface: Surface) -> dict[str, Any]:
-    return {"state": surface.state.label if surface.state is not None else None,
-            "level_a0^-3": surface.level, "fraction_enclosed": surface.fraction_enclosed,
-            "triangles": int(len(surface.faces))}
-
-
+# -- drawing: each kind's job, with surfaces and levels from the cache --------------------
 def _save(work: _Work, fig, path: Path, metadata: dict) -> tuple[dict, Callable[[Path], None]]:
-    from ..picture.output import save_figure
+    from ..jobs.write import write_picture
 
-    save_figure(fig, path, metadata, dpi=work.opt("dpi"),
-                transparent=work.spec.options.get("transparent", False))
+    write_picture(fig, path, metadata, dpi=work.options.dpi, transparent=work.options.transparent)
     return {**metadata, "file": work.spec.file}, _picture_thumbnail(fig, path)
 
 
+def _figure_surfaces(work: _Work):
+    """A ``surface_for`` for :func:`figure_job` that hands out the cached surfaces in order."""
+    surfaces = iter(work.surfaces())
+    return lambda _state: next(surfaces)
+
+
 @_drawer("figure")
-def _draw_figure(work: _Work, path: Path):
-    from ..picture.compose import figure_3d
-    from ..picture.output import figure_metadata
-
-    surface = work.surfaces()[0]
-    size = work.caps.size(work.spec.options.get("width_px", _FIGURE_SIZE[0]),
-                          work.spec.options.get("height_px", _FIGURE_SIZE[1]))
-    fig, render = figure_3d(surface, *size, title=work.spec.options.get("title"),
-                            **_compose_options(work), **_render_options(work))
-    source = {} if surface.state is not None else {"source": work.spec.options["field"]}
-    md = figure_metadata(surface.state, surface.fraction_requested, surface.level,
-                         surface.lattice_shape[0], command="figure",
-                         fraction_enclosed=surface.fraction_enclosed, triangles=int(len(surface.faces)),
-                         view=_view(work, render, size), px_per_a0=render.px_per_a0, **source)
-    return _save(work, fig, path, md)
-
-
-#: Figure size of one render, px (the figure command's default ``--size``).
-_FIGURE_SIZE = (900, 800)
-#: Side of one panel of a layout when no figure size is given, px (our choice: a slide
-#: column of four or five panels stays under 2000 px wide).
-_PANEL_PX = 380
-
-
-def _layout_size(work: _Work, count: int, ncols: int) -> tuple[int, int]:
-    from ..picture.compose import fit_geometry
-
-    o = work.spec.options
-    if "width_px" in o and "height_px" in o:
-        return work.caps.size(o["width_px"], o["height_px"])
-    panel = o.get("panel_px", _PANEL_PX)
-    nrows = -(-count // ncols)
-    probe = fit_geometry(10 * panel, panel + 30, 1, 1, True, True, work.opt("dpi"))
-    width = o.get("width_px", ncols * panel + probe.legend_px)
-    height = o.get("height_px", nrows * (panel + probe.title_px))
-    return work.caps.size(width, height)
-
-
 @_drawer("layout")
-def _draw_layout(work: _Work, path: Path):
-    from ..picture.compose import surface_title
-    from ..picture.layout import default_columns, small_multiples
-    from ..picture.output import figure_metadata
+def _draw_figure(work: _Work, path: Path):
+    from ..jobs.figure import figure_job
 
-    o = work.spec.options
-    surfaces = work.surfaces()
-    strip = "times" in o
-    if strip:
-        titles = [f"t = {t:g} {work.opt('time_unit') or 'au'}" for t in o["times"]]
-        ncols = len(surfaces)
-    else:
-        titles = [surface_title(s) for s in surfaces]
-        ncols = o.get("columns", default_columns(len(surfaces)))
-    size = _layout_size(work, len(surfaces), ncols)
-    fig, renders = small_multiples(surfaces, titles, ncols, *size, shared_target=strip,
-                                   **_compose_options(work), **_render_options(work))
-    first = surfaces[0]
-    common = dict(command="figure", view=_view(work, renders[0], size), px_per_a0=renders[0].px_per_a0)
-    if strip:
-        md = figure_metadata(first.state.at_time(0.0), first.fraction_requested, None,
-                             first.lattice_shape[0], times_au=[s.state.time_au for s in surfaces],
-                             **common)
-    else:
-        md = figure_metadata(None, first.fraction_requested, None, first.lattice_shape[0],
-                             panels=[_panel_record(s) for s in surfaces], **common)
+    o = work.options
+    strip = work.spec.kind == "layout" and o.times is not None
+    fig, md = figure_job(work.spec.states or (None,), o, surface_for=_figure_surfaces(work),
+                         times_au=[s.time_au for s in work.spec.states] if strip else None,
+                         fit_size=work.caps.size)
     return _save(work, fig, path, md)
 
 
 @_drawer("section")
 def _draw_section(work: _Work, path: Path):
-    from dataclasses import replace
+    from ..jobs.section import section_job
 
-    from ..picture.nodal import section_lines
-    from ..picture.plane import plane
-    from ..picture.section import cross_section
-    from ..picture.section_figure import section_figure, section_metadata
-
-    o = work.spec.options
-    where = plane(o.get("normal") or o.get("plane", "xz"), option(work.spec, "offset_a0"))
+    o = replace(work.options, pixels=work.caps.lattice(work.options.pixels))
     state = _state_of(work)
     source = state if state is not None else _load_user_field(_field_description(work.spec))
-    pixels = work.caps.lattice(int(work.opt("pixels")))
-    section = cross_section(source, where, o.get("extent_a0"), pixels, fraction=None)
-    contour = o.get("contour", True)
-    if contour:
-        level = work.level()
-        section = replace(section, level=level.level, fraction_requested=level.fraction_requested,
-                          fraction_enclosed=level.fraction_enclosed,
-                          fraction_error=level.fraction_error, level_method=level.method)
-    lines = section_lines(section, nodes=o.get("nodes", True))
-    style = dict(scheme=work.opt("phase_map"), scale=work.opt("scale"), decades=work.opt("decades"),
-                 units=work.opt("units"))
-    label = state.label if state is not None else Path(o["field"]).stem
-    fig = section_figure(section, lines, **style, title=o.get("title"), label=label)
-    md = section_metadata(section, lines, **style, source=o.get("field"), dpi=work.opt("dpi"))
+    label = state.label if state is not None else Path(o.field).stem
+    fig, md = section_job(source, o, label=label, level_for=work.level)
     return _save(work, fig, path, md)
 
 
 @_drawer("radial")
 def _draw_radial(work: _Work, path: Path):
-    from ..cli.radial import parse_quantities
-    from ..picture.radialplot import radial_figure, radial_metadata
+    from ..jobs.radial import radial_job
 
-    states = list(work.spec.states)
-    quantities = parse_quantities(_quantity_text(work.opt("quantity")))
-    fraction = work.opt("fraction")
-    fig, marks = radial_figure(states, quantities, fraction, work.opt("units"),
-                               title=work.spec.options.get("title"))
-    md = radial_metadata(states, marks, quantities, work.opt("units"), dpi=work.opt("dpi"))
+    fig, md = radial_job(work.spec.states, work.options)
     return _save(work, fig, path, md)
-
-
-def _quantity_text(value: str | list[str]) -> str:
-    return ",".join(value) if isinstance(value, list) else value
 
 
 def _render_thumbnail(surface: Surface, phase_map: str) -> Callable[[Path], None]:
@@ -540,24 +387,11 @@ def _render_thumbnail(surface: Surface, phase_map: str) -> Callable[[Path], None
     return make
 
 
-def _mesh_print_options(work: _Work):
-    from ..mesh.print_options import PrintOptions
-
-    cut = work.spec.options.get("print_cutaway", False)
-    return PrintOptions(work.opt("min_thickness_mm"), work.opt("min_gap_mm"), work.opt("strut_fraction"),
-                        "none" if cut else work.opt("base"), cut)
-
-
 @_drawer("mesh")
 def _draw_mesh(work: _Work, path: Path):
-    from ..mesh.pipeline import export_mesh
+    from ..jobs.mesh import mesh_job
 
-    o = work.spec.options
     surface = work.surfaces()[0]
-    printable = o.get("printable", False)
-    report = export_mesh(surface, path, units=work.opt("units"), size_mm=o.get("size_mm"),
-                         phase_map=work.opt("phase_map"),
-                         printable=_mesh_print_options(work) if printable else None,
-                         split="sign" if o.get("split_sign", False) else None)
+    report = mesh_job(surface, path, work.options)
     report["files"] = [work.spec.file]
-    return report, _render_thumbnail(surface, work.opt("phase_map"))
+    return report, _render_thumbnail(surface, work.options.phase_map)

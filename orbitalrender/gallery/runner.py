@@ -31,22 +31,13 @@ from typing import IO
 from ..atomic import check_outputs_inside, check_writable
 from .cache import DEFAULT_LIMIT_BYTES, CacheStats, DiskCache, evict
 from .config import GalleryConfig, load_config
+from .options import CACHE_FOLDER, default_jobs
 from .produce import Caps, OutputRecord, Request, make_output, make_request, requests_for
 
 __all__ = ["OutputRecord", "GalleryResult", "run_gallery", "default_jobs", "CACHE_FOLDER"]
 
-#: Name of the cache folder inside the output folder.
-CACHE_FOLDER = ".cache"
+#: Width of the progress bar, characters.
 _BAR_WIDTH = 24
-
-
-def default_jobs() -> int:
-    """min(2, number of usable cores)."""
-    try:
-        cores = len(os.sched_getaffinity(0))
-    except AttributeError:  # not on Linux
-        cores = os.cpu_count() or 1
-    return max(1, min(2, cores))
 
 
 @dataclass(frozen=True)

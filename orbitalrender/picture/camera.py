@@ -114,7 +114,7 @@ def as_surfaces(surfaces: Surface | Sequence[Surface]) -> list[Surface]:
     return out
 
 
-def frame_camera(surfaces: Surface | Sequence[Surface], camera: Camera = DEFAULT_CAMERA,
+def frame_camera(surfaces: Surface | Sequence[Surface], camera: Camera = DEFAULT_CAMERA, *,
                  aspect: float = 1.0, extra_points_a0: np.ndarray | None = None) -> Camera:
     """`camera` with target, half-extent and (perspective) distance fitted to the surfaces.
 

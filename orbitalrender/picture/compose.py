@@ -71,7 +71,7 @@ class FigureGeometry:
         return self.ncols * pw + self.legend_px, self.nrows * (ph + self.title_px)
 
 
-def fit_geometry(width_px: int, height_px: int, ncols: int = 1, nrows: int = 1, titles: bool = True,
+def fit_geometry(width_px: int, height_px: int, *, ncols: int = 1, nrows: int = 1, titles: bool = True,
                  legend: bool = True, dpi: float = 100.0) -> FigureGeometry:
     """The geometry whose panels fill a figure of about `width_px` x `height_px`.
 
@@ -103,7 +103,7 @@ def fit_geometry(width_px: int, height_px: int, ncols: int = 1, nrows: int = 1, 
     return FigureGeometry(int(ncols), int(nrows), (pw, ph), title_px, legend_px, float(dpi), fs)
 
 
-def compose_figure(renders: Sequence[Render], geometry: FigureGeometry,
+def compose_figure(renders: Sequence[Render], geometry: FigureGeometry, *,
                    titles: Sequence[str] | None = None, units: str = "a0", legend: bool = True,
                    scale_bar: bool = True, transparent: bool = False):
     """Place renders in a grid with titles, one phase legend and one scale bar.
@@ -186,7 +186,7 @@ def compose_figure(renders: Sequence[Render], geometry: FigureGeometry,
     return fig
 
 
-def figure_3d(surfaces: Surface | Sequence[Surface], width_px: int = 900, height_px: int = 800,
+def figure_3d(surfaces: Surface | Sequence[Surface], width_px: int = 900, height_px: int = 800, *,
               dpi: float = 100.0, title: str | None = None, units: str = "a0", legend: bool = True,
               scale_bar: bool = True, transparent: bool = False, **render_options):
     """One render with its title, phase legend and scale bar, as a matplotlib Figure.
@@ -211,12 +211,12 @@ def figure_3d(surfaces: Surface | Sequence[Surface], width_px: int = 900, height
     surfaces = as_surfaces(surfaces)
     if title is None:
         title = surface_title(surfaces[0])
-    geometry = fit_geometry(width_px, height_px, 1, 1, bool(title), legend or scale_bar, dpi)
+    geometry = fit_geometry(width_px, height_px, titles=bool(title), legend=legend or scale_bar, dpi=dpi)
     background = None if transparent else render_options.pop("background", (1.0, 1.0, 1.0))
     render_options.pop("background", None)
     render = render_surfaces(surfaces, *geometry.panel_px, background=background, **render_options)
-    fig = compose_figure([render], geometry, [title] if title else None, units, legend, scale_bar,
-                         transparent)
+    fig = compose_figure([render], geometry, titles=[title] if title else None, units=units, legend=legend,
+                         scale_bar=scale_bar, transparent=transparent)
     return fig, render
 
 

@@ -21,14 +21,14 @@ DENSITY_SCALES = ("linear", "log")
 _DARKEST = 0.35
 
 
-def density_weight(density: np.ndarray, scale: str = "linear", decades: float = 3.0) -> np.ndarray:
+def density_weight(density: np.ndarray, *, scale: str = "linear", decades: float = 3.0) -> np.ndarray:
     """Opacity in [0, 1] from |psi|^2: ``rho / max`` (linear) or
     ``1 + log10(rho / max) / decades`` clipped at 0 (log); NaN -> 0.
 
     Examples
     --------
     >>> import numpy as np
-    >>> density_weight(np.array([1.0, 0.1, 0.001, 0.0]), "log", 3).round(6).tolist()
+    >>> density_weight(np.array([1.0, 0.1, 0.001, 0.0]), scale="log", decades=3).round(6).tolist()
     [1.0, 0.666667, 0.0, 0.0]
     """
     if scale not in DENSITY_SCALES:

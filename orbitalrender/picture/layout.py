@@ -42,8 +42,9 @@ def default_columns(count: int) -> int:
     return math.ceil(math.sqrt(count))
 
 
-def shared_cameras(groups: Sequence[Sequence[Surface]], camera: Camera = DEFAULT_CAMERA, aspect: float = 1.0,
-                   shared_target: bool = False, nodal_axis: bool | Sequence[bool] = False) -> list[Camera]:
+def shared_cameras(groups: Sequence[Sequence[Surface]], camera: Camera = DEFAULT_CAMERA, *,
+                   aspect: float = 1.0, shared_target: bool = False,
+                   nodal_axis: bool | Sequence[bool] = False) -> list[Camera]:
     """One camera per panel, all with the same half-extent (and eye distance).
 
     Parameters
@@ -71,13 +72,14 @@ def shared_cameras(groups: Sequence[Sequence[Surface]], camera: Camera = DEFAULT
         pts = np.concatenate([s.vertices_a0 for g in lists for s in g]
                              + [e for e in extra if e is not None])
         camera = replace(camera, target_a0=tuple(0.5 * (pts.min(axis=0) + pts.max(axis=0))))
-    fitted = [frame_camera(g, camera, aspect, e) for g, e in zip(lists, extra)]
+    fitted = [frame_camera(g, camera, aspect=aspect, extra_points_a0=e)
+              for g, e in zip(lists, extra)]
     half = max(c.half_extent_a0 for c in fitted)
     distance = max(c.distance_a0 for c in fitted) if camera.projection == "perspective" else None
     return [replace(c, half_extent_a0=half, distance_a0=distance) for c in fitted]
 
 
-def small_multiples(panels: Sequence[Surface | Sequence[Surface]], titles: Sequence[str] | None = None,
+def small_multiples(panels: Sequence[Surface | Sequence[Surface]], titles: Sequence[str] | None = None, *,
                     ncols: int | None = None, width_px: int = 1200, height_px: int = 1000,
                     dpi: float = 100.0, units: str = "a0", legend: bool = True, scale_bar: bool = True,
                     transparent: bool = False, camera: Camera = DEFAULT_CAMERA, shared_target: bool = False,
@@ -118,22 +120,24 @@ def small_multiples(panels: Sequence[Surface | Sequence[Surface]], titles: Seque
     if ncols < 1:
         raise ValueError(f"a layout needs at least one column, got {ncols}")
     nrows = math.ceil(len(groups) / ncols)
-    geometry = fit_geometry(width_px, height_px, ncols, nrows, True, legend or scale_bar, dpi)
+    geometry = fit_geometry(width_px, height_px, ncols=ncols, nrows=nrows, legend=legend or scale_bar,
+                            dpi=dpi)
     pw, ph = geometry.panel_px
     # the nodal axis is drawn in the panels whose state has one
     want_axis = bool(render_options.pop("nodal_axis", False))
     axis = [want_axis and has_nodal_axis(g[0]) for g in groups]
-    cameras = shared_cameras(groups, camera, pw / ph, shared_target, axis)
+    cameras = shared_cameras(groups, camera, aspect=pw / ph, shared_target=shared_target, nodal_axis=axis)
     render_options.pop("background", None)
     background = None if transparent else (1.0, 1.0, 1.0)
     renders: list[Render] = [render_surfaces(g, pw, ph, camera=c, background=background, nodal_axis=a,
                                              **render_options)
                              for g, c, a in zip(groups, cameras, axis)]
-    fig = compose_figure(renders, geometry, titles, units, legend, scale_bar, transparent)
+    fig = compose_figure(renders, geometry, titles=titles, units=units, legend=legend, scale_bar=scale_bar,
+                         transparent=transparent)
     return fig, renders
 
 
-def time_strip(state: State, times_au: Sequence[float], fraction: float = 0.9, resolution: int = 96,
+def time_strip(state: State, times_au: Sequence[float], *, fraction: float = 0.9, resolution: int = 96,
                box: Box | None = None, time_labels: Sequence[str] | None = None,
                width_px: int | None = None, height_px: int = 360, **options):
     """Frames of a superposition at chosen times, in one row, at one scale and one centre.
@@ -174,10 +178,11 @@ def time_strip(state: State, times_au: Sequence[float], fraction: float = 0.9, r
     if time_labels is None:
         time_labels = [f"t = {t:g} au" for t in times]
     if width_px is None:  # square frames
-        probe = fit_geometry(10 * height_px, height_px, 1, 1, True, True, options.get("dpi", 100.0))
+        probe = fit_geometry(10 * height_px, height_px, dpi=options.get("dpi", 100.0))
         width_px = len(times) * probe.panel_px[1] + probe.legend_px
     options.setdefault("shared_target", True)
-    return small_multiples(surfaces, list(time_labels), len(times), width_px, height_px, **options)
+    return small_multiples(surfaces, list(time_labels), ncols=len(times), width_px=width_px,
+                           height_px=height_px, **options)
 
 
 def shell_states(n: int, basis: str = "real", Z: float = 1.0, reduced_mass_ratio: float = 1.0) -> list[State]:

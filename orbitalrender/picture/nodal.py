@@ -205,7 +205,7 @@ def section_lines(section: Section, *, nodes: bool = True) -> SectionLines:
     >>> from orbitalrender.picture.plane import plane
     >>> from orbitalrender.picture.section import cross_section
     >>> from orbitalrender.state.model import eigenstate
-    >>> s = cross_section(eigenstate(2, 0, 0), plane("xy"), 6.0, pixels=32, fraction=None)
+    >>> s = cross_section(eigenstate(2, 0, 0), plane("xy"), half_width_a0=6.0, pixels=32, fraction=None)
     >>> lines = section_lines(s)
     >>> len(lines.contour), len(lines.nodes)
     (0, 1)

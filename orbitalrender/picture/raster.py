@@ -27,11 +27,30 @@ References
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import NamedTuple
 
 import numba
 import numpy as np
 
-__all__ = ["Fragments", "rasterize", "scan_triangle"]
+__all__ = ["Fragments", "Screen", "Buffers", "rasterize", "scan_triangle"]
+
+
+class Screen(NamedTuple):
+    """Projected vertices, in (supersampled) pixels, as the scan converter reads them."""
+
+    x: np.ndarray        #: (V,) float64 column
+    y: np.ndarray        #: (V,) float64 row (grows downward)
+    depth: np.ndarray    #: (V,) float64 view depth, larger is farther
+    w: np.ndarray        #: (V,) float64 projective divisor (ones for orthographic)
+    perspective: bool    #: make the weights perspective-correct with `w`
+
+
+class Buffers(NamedTuple):
+    """The z-buffer, triangle index and weights a triangle is drawn into (rows row0 .. row1 - 1)."""
+
+    depth: np.ndarray    #: (H, W) float32
+    triangle: np.ndarray  #: (H, W) int32, -1 where empty
+    weights: np.ndarray  #: (H, W, 3) float32
 
 
 @dataclass(frozen=True, eq=False)
@@ -72,18 +91,19 @@ def _span(a, c, lo, hi):  # pragma: no cover - compiled
 
 
 @numba.njit(cache=True, nogil=True)
-def _scan(px, py, zv, w, faces, skip, clip, perspective, width, height,
-          depth, tri, wts):  # pragma: no cover - compiled
+def _scan(screen, faces, skip, clip, width, height, buffers):  # pragma: no cover - compiled
     for t in range(faces.shape[0]):
         if not skip[t]:
-            scan_triangle(t, px, py, zv, w, faces, clip, perspective, width, 0, height, depth, tri, wts)
+            scan_triangle(t, screen, faces, clip, width, 0, height, buffers)
 
 
 @numba.njit(cache=True, nogil=True)
-def scan_triangle(t, px, py, zv, w, faces, clip, perspective, width, row0, row1,
-                  depth, tri, wts):  # pragma: no cover - compiled
-    """Draw triangle t into buffers that hold image rows row0 .. row1 - 1 (buffer row j - row0):
-    the whole image, or one band of it (see the banded pass of :mod:`orbitalrender.picture.shading`)."""
+def scan_triangle(t, screen, faces, clip, width, row0, row1, buffers):  # pragma: no cover - compiled
+    """Draw triangle t of `screen` (a Screen) into `buffers` (a Buffers), which hold image rows
+    row0 .. row1 - 1 (buffer row j - row0): the whole image, or one band of it (see the banded
+    pass of :mod:`orbitalrender.picture.shading`).  `clip` (V, K) are the cutaway plane values."""
+    px, py, zv, w, perspective = screen.x, screen.y, screen.depth, screen.w, screen.perspective
+    depth, tri, wts = buffers.depth, buffers.triangle, buffers.weights
     n_clip = clip.shape[1]
     i0 = faces[t, 0]
     i1 = faces[t, 1]
@@ -170,7 +190,7 @@ def scan_triangle(t, px, py, zv, w, faces, clip, perspective, width, row0, row1,
 
 
 def rasterize(x_px: np.ndarray, y_px: np.ndarray, depth: np.ndarray, faces: np.ndarray,
-              width: int, height: int, clip_values: np.ndarray | None = None,
+              width: int, height: int, *, clip_values: np.ndarray | None = None,
               divisor: np.ndarray | None = None, skip: np.ndarray | None = None) -> Fragments:
     """Scan-convert triangles with a z-buffer.
 
@@ -225,6 +245,7 @@ def rasterize(x_px: np.ndarray, y_px: np.ndarray, depth: np.ndarray, faces: np.n
     w = np.ones(n) if divisor is None else np.ascontiguousarray(divisor, dtype=np.float64)
     skip = np.zeros(len(faces), dtype=np.bool_) if skip is None \
         else np.ascontiguousarray(skip, dtype=np.bool_)
-    _scan(*(np.ascontiguousarray(a, dtype=np.float64) for a in (x_px, y_px, depth)), w, faces, skip, clip,
-          divisor is not None, width, height, zbuf, tri, wts)
+    screen = Screen(*(np.ascontiguousarray(a, dtype=np.float64) for a in (x_px, y_px, depth)), w,
+                    divisor is not None)
+    _scan(screen, faces, skip, clip, width, height, Buffers(zbuf, tri, wts))
     return Fragments(tri, zbuf, wts)

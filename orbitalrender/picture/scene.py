@@ -41,10 +41,13 @@ from ..surface.model import Surface
 from .axis import AXIS_RGB, axis_layer, axis_segment
 from .camera import DEFAULT_CAMERA, Camera, Projection, as_surfaces, frame_camera, pixel_projection
 from .cutaway import Cutaway, cap_exit, clip_values
-from .raster import Fragments, rasterize
+from .raster import Fragments, Screen, rasterize
 from .shading import (
     BAND_ROWS,
     LINE_SAMPLE,
+    Bands,
+    Light,
+    ShadedMesh,
     band_lists,
     downsample,
     encode_srgb,
@@ -185,32 +188,25 @@ def _unit(v) -> np.ndarray:
     return v / np.linalg.norm(v, axis=-1, keepdims=True)
 
 
-def _light_params(lighting: Lighting, proj: Projection) -> np.ndarray:
-    """[key (3), fill (3), half vector (3), ambient, key, fill, specular, shininess] in world axes."""
+def _kernel_light(lighting: Lighting, proj: Projection) -> Light:
+    """`lighting`, fixed in the camera frame, turned into world axes for the kernels."""
     frame = np.stack([proj.right, proj.up, proj.toward])
     key = _unit(lighting.key_direction) @ frame
     fill = _unit(lighting.fill_direction) @ frame
     half = _unit(key + proj.toward)
-    return np.concatenate([key, fill, half, [lighting.ambient, lighting.key, lighting.fill,
-                                             lighting.specular, lighting.shininess]])
+    return Light(*(float(c) for c in (*key, *fill, *half)), ambient=float(lighting.ambient),
+                 key_weight=float(lighting.key), fill_weight=float(lighting.fill),
+                 specular=float(lighting.specular), shininess=float(lighting.shininess),
+                 back_gain=float(lighting.back_face))
 
 
 #: One-entry table for caps of a user field, whose psi is not known off the mesh: mid grey.
 _GREY_LUT = srgb_to_linear(np.full((1, 3), 0.6))
 
 
-@dataclass(frozen=True, eq=False)
-class _Mesh:
-    """One layer's mesh with what shading needs per vertex and per triangle."""
-
-    vertices: np.ndarray
-    faces: np.ndarray
-    normals: np.ndarray
-    phasors: np.ndarray  # unit psi/|psi|, already rotated for the sign map
-    front: np.ndarray    # per triangle: True when it faces the eye
-
-
-def _mesh(surfaces: list[Surface], rotation: complex, proj: Projection) -> _Mesh:
+def _mesh(surfaces: list[Surface], rotation: complex, proj: Projection,
+          lut: np.ndarray) -> tuple[np.ndarray, ShadedMesh]:
+    """One layer's vertices (V, 3) and what shading needs of it, with psi rotated by `rotation`."""
     verts, faces, normals, psi = [], [], [], []
     base = 0
     for s in surfaces:
@@ -235,19 +231,16 @@ def _mesh(surfaces: list[Surface], rotation: complex, proj: Projection) -> _Mesh
     else:
         view = proj.toward
     front = np.sum(geo * view, axis=1) >= 0
-    return _Mesh(v, f, n, phasors, front)
+    return v, ShadedMesh(f, n, phasors, front, lut)
 
 
-def _shade(frags: Fragments, mesh: _Mesh, proj: Projection, scheme: str, lighting: Lighting,
-           rotation: complex, planes, cap_psi: Callable | None) -> tuple[np.ndarray, np.ndarray]:
+def _shade(frags: Fragments, mesh: ShadedMesh, proj: Projection, light: Light, rotation: complex,
+           planes, cap_psi: Callable | None) -> tuple[np.ndarray, np.ndarray]:
     """Linear-light colour (H, W, 3) float32 and depth (H, W) of a layer (inf where empty)."""
     h, w = frags.triangle.shape
     lin = np.zeros((h, w, 3), dtype=np.float32)
     back = np.zeros((h, w), dtype=np.bool_)
-    lut = linear_lut(scheme)
-    lp = _light_params(lighting, proj)
-    shade_pixels(frags.triangle, frags.weights, mesh.faces, mesh.normals, mesh.phasors,
-                  mesh.front, lut, lp, float(lighting.back_face), lin, back)
+    shade_pixels(frags.triangle, frags.weights, mesh, light, lin, back)
     depth = frags.depth
     if planes is None or not back.any():
         return lin, depth
@@ -265,10 +258,10 @@ def _shade(frags: Fragments, mesh: _Mesh, proj: Projection, scheme: str, lightin
         points = a[capped] + t[:, None] * b[capped]
         cap_normal = np.ascontiguousarray(planes[0][which[capped]])
         if cap_psi is None:  # no analytic psi: a neutral grey cap
-            colour = shade_points(cap_normal, np.ones(len(t), dtype=complex), _GREY_LUT, lp)
+            colour = shade_points(cap_normal, np.ones(len(t), dtype=complex), _GREY_LUT, light)
         else:
             psi = np.asarray(cap_psi(*points.T), dtype=complex) * np.conj(rotation)
-            colour = shade_points(cap_normal, np.ascontiguousarray(psi), lut, lp)
+            colour = shade_points(cap_normal, np.ascontiguousarray(psi), mesh.lut, light)
         rr, cc = rows[capped], cols[capped]
         lin[rr, cc] = colour
         depth[rr, cc] = t
@@ -284,7 +277,7 @@ def _outer_components(components: list[Surface], centre: np.ndarray) -> list[boo
             for i in range(len(components))]
 
 
-def render_surfaces(surfaces: Surface | Sequence[Surface], width_px: int = 800, height_px: int = 800,
+def render_surfaces(surfaces: Surface | Sequence[Surface], width_px: int = 800, height_px: int = 800, *,
                     camera: Camera = DEFAULT_CAMERA, phase_map: str = "uniform",
                     lighting: Lighting = Lighting(), cutaway: Cutaway | None = None,
                     translucent_outer: float | None = None, nodal_axis: bool = False,
@@ -356,7 +349,7 @@ def render_surfaces(surfaces: Surface | Sequence[Surface], width_px: int = 800, 
                        translucent_outer=translucent_outer)
     require_render_memory(width_px, height_px, ss, path)  # before any buffer
     segment = axis_segment(surfaces) if nodal_axis else None
-    camera = frame_camera(surfaces, camera, width_px / height_px, segment)
+    camera = frame_camera(surfaces, camera, aspect=width_px / height_px, extra_points_a0=segment)
     proj = pixel_projection(camera, width_px * ss, height_px * ss)
     rotation = (sign_rotation(surfaces[0].state, np.concatenate([s.psi for s in surfaces]))
                 if phase_map == "sign" else 1.0 + 0.0j)
@@ -381,39 +374,37 @@ def render_surfaces(surfaces: Surface | Sequence[Surface], width_px: int = 800, 
             path = render_path(cutaway=cutaway is not None, nodal_axis=nodal_axis,
                                translucent_outer=None)
 
-    def raster(group: list[Surface]) -> tuple[_Mesh, Fragments]:
-        mesh = _mesh(group, rotation, proj)
-        x, y, depth, divisor = proj.project(mesh.vertices)
-        # without a cut only faces toward the eye can be nearest on a closed surface: cull the rest
-        return mesh, rasterize(x, y, depth, mesh.faces, proj.width, proj.height,
-                               clip_values(mesh.vertices, planes), divisor,
-                               skip=None if planes is not None else ~mesh.front)
+    lut = linear_lut(phase_map)
+    light = _kernel_light(lighting, proj)
 
     def layer(group: list[Surface]) -> tuple[np.ndarray, np.ndarray]:
-        mesh, frags = raster(group)
-        return _shade(frags, mesh, proj, phase_map, lighting, rotation, planes, cap_psi)
+        vertices, mesh = _mesh(group, rotation, proj, lut)
+        x, y, depth, divisor = proj.project(vertices)
+        # without a cut only faces toward the eye can be nearest on a closed surface: cull the rest
+        frags = rasterize(x, y, depth, mesh.faces, proj.width, proj.height,
+                          clip_values=clip_values(vertices, planes), divisor=divisor,
+                          skip=None if planes is not None else ~mesh.front)
+        return _shade(frags, mesh, proj, light, rotation, planes, cap_psi)
 
     line_lin = srgb_to_linear(np.asarray(AXIS_RGB, dtype=float))
     if path in ("banded", "whole"):
         # the common case: shade once per triangle and output pixel, filtering as we go
-        mesh = _mesh(opaque, rotation, proj)
-        x, y, depth, divisor = proj.project(mesh.vertices)
+        vertices, mesh = _mesh(opaque, rotation, proj, lut)
+        x, y, depth, divisor = proj.project(vertices)
         premult = np.empty((height_px, width_px, 3), dtype=np.float32)
         alpha = np.empty((height_px, width_px), dtype=np.float32)
-        shading = (mesh.faces, mesh.normals, mesh.phasors, mesh.front, linear_lut(phase_map),
-                   _light_params(lighting, proj), float(lighting.back_face), ss, line_lin)
         if path == "banded":  # band by band (fast, little memory)
             with np.errstate(invalid="ignore"):
-                start, band_faces = band_lists(y[mesh.faces], mesh.front, proj.height, BAND_ROWS * ss)
+                bands = Bands(*band_lists(y[mesh.faces], mesh.front, proj.height, BAND_ROWS * ss))
             w = np.ones(len(x)) if divisor is None else divisor
-            render_banded(x, y, depth.astype(np.float64), w, mesh.faces, start, band_faces,
-                           divisor is not None, ss, *shading[1:-2], line_lin, premult, alpha)
+            screen = Screen(x, y, depth.astype(np.float64), w, divisor is not None)
+            render_banded(screen, bands, mesh, light, ss, line_lin, premult, alpha)
         else:  # the whole image at once, so the line can be depth-tested against it
-            frags = rasterize(x, y, depth, mesh.faces, proj.width, proj.height, None, divisor,
+            frags = rasterize(x, y, depth, mesh.faces, proj.width, proj.height, divisor=divisor,
                               skip=~mesh.front)
             tri = frags.triangle
             tri[axis_layer(segment, proj, ss) < frags.depth] = LINE_SAMPLE
-            shade_resolve(tri, frags.weights, *shading, premult, alpha)
+            shade_resolve(tri, frags.weights, mesh, light, ss, line_lin, premult, alpha)
         return _finish(premult, alpha, background, surfaces, proj.px_per_a0 / ss, camera, phase_map)
     if opaque:
         lin, depth = layer(opaque)

@@ -160,7 +160,7 @@ def _interpolate(lattice: Lattice, x, y, z) -> np.ndarray:
     return out
 
 
-def cross_section(source: State | Lattice, plane_: Plane, half_width_a0: float | None = None,
+def cross_section(source: State | Lattice, plane_: Plane, *, half_width_a0: float | None = None,
                   pixels: int = 400, fraction: float | None = 0.9) -> Section:
     """psi on a square window of `plane_` and the density level of the F surface.
 
@@ -197,7 +197,7 @@ def cross_section(source: State | Lattice, plane_: Plane, half_width_a0: float |
     --------
     >>> from orbitalrender.picture.plane import plane
     >>> from orbitalrender.state.model import real_orbital
-    >>> s = cross_section(real_orbital(2, 1, 0), plane("xz"), 10.0, pixels=32, fraction=None)
+    >>> s = cross_section(real_orbital(2, 1, 0), plane("xz"), half_width_a0=10.0, pixels=32, fraction=None)
     >>> s.psi.shape, round(s.half_width_a0, 6)
     ((32, 32), 10.0)
     """

@@ -50,7 +50,7 @@ def _section_rgb(section: Section, scheme: str, scale: str, decades: float) -> n
         rgb = phase_to_rgb(np.angle(np.nan_to_num(section.psi)), scheme)
     else:
         raise ValueError(f"unknown phase colour scheme {scheme!r}: use one of {', '.join(PHASE_SCHEMES)}")
-    return shade(rgb, density_weight(section.density, scale, decades))
+    return shade(rgb, density_weight(section.density, scale=scale, decades=decades))
 
 
 def _draw_weight_scale(ax, scale: str, decades: float, fontsize: float) -> None:
@@ -158,7 +158,7 @@ def section_figure(section: Section, lines: SectionLines, *, scheme: str = "unif
     >>> from orbitalrender.picture.plane import plane
     >>> from orbitalrender.picture.section import cross_section
     >>> from orbitalrender.state.model import real_orbital
-    >>> s = cross_section(real_orbital(2, 1, 0, label="2pz"), plane("xz"), 8.0, pixels=32,
+    >>> s = cross_section(real_orbital(2, 1, 0, label="2pz"), plane("xz"), half_width_a0=8.0, pixels=32,
     ...                   fraction=None)
     >>> fig = section_figure(s, section_lines(s))
     >>> fig.axes[0].get_xlabel()
@@ -202,7 +202,8 @@ def section_metadata(section: Section, lines: SectionLines, *, scheme: str = "un
     Examples
     --------
     >>> import orbitalrender as orb
-    >>> s = orb.cross_section(orb.eigenstate(2, 0, 0), orb.plane("xy"), 6.0, pixels=32, fraction=None)
+    >>> s = orb.cross_section(orb.eigenstate(2, 0, 0), orb.plane("xy"), half_width_a0=6.0, pixels=32,
+    ...                       fraction=None)
     >>> md = section_metadata(s, orb.section_lines(s))
     >>> md["plane"], md["nodal_lines"], md["resolution"]
     ('xy', 1, 32)

@@ -27,15 +27,56 @@ References
 from __future__ import annotations
 
 from functools import cache
+from typing import NamedTuple
 
 import numba
 import numpy as np
 
 from ..colormap import linear_to_srgb, phase_to_rgb, srgb_to_linear
-from .raster import scan_triangle
+from .raster import Buffers, scan_triangle
 
-__all__ = ["LINE_SAMPLE", "BAND_ROWS", "linear_lut", "srgb_lut", "shade_pixels", "shade_resolve",
-           "render_banded", "band_lists", "shade_points", "downsample", "encode_srgb"]
+__all__ = ["Light", "ShadedMesh", "Bands", "LINE_SAMPLE", "BAND_ROWS", "linear_lut",
+           "srgb_lut", "shade_pixels", "shade_resolve", "render_banded", "band_lists", "shade_points",
+           "downsample", "encode_srgb"]
+
+class Light(NamedTuple):
+    """The lighting as the kernels read it, in world axes (built by the scene from its
+    :class:`~orbitalrender.picture.scene.Lighting` and camera).  Vectors are given by their
+    components: numba's parallel loops take a tuple of scalars, not one holding tuples."""
+
+    key_x: float    #: unit direction toward the key light
+    key_y: float
+    key_z: float
+    fill_x: float   #: unit direction toward the fill light
+    fill_y: float
+    fill_z: float
+    half_x: float   #: Blinn's half vector of the key light and the eye
+    half_y: float
+    half_z: float
+    ambient: float
+    key_weight: float
+    fill_weight: float
+    specular: float
+    shininess: float
+    back_gain: float                   #: brightness of a back face relative to a front face
+
+
+class ShadedMesh(NamedTuple):
+    """What shading needs of a mesh, per vertex and per triangle."""
+
+    faces: np.ndarray    #: (F, 3) int64 vertex indices
+    normals: np.ndarray  #: (V, 3) float64 unit vertex normals
+    phasors: np.ndarray  #: (V,) complex128 unit psi/|psi|, the global phase already removed
+    front: np.ndarray    #: (F,) bool, True where the triangle faces the eye
+    lut: np.ndarray      #: (K, 3) float64 linear-light phase table (:func:`linear_lut`)
+
+
+class Bands(NamedTuple):
+    """CSR lists of the triangles reaching each band: faces[start[b]:start[b + 1]] (:func:`band_lists`)."""
+
+    start: np.ndarray
+    faces: np.ndarray
+
 
 #: Entries of the linear-light phase table used per pixel (step 0.09 degree, far below a
 #: visible difference); it is tabulated from :func:`phase_to_rgb`, not a map of its own.
@@ -50,13 +91,13 @@ def linear_lut(scheme: str) -> np.ndarray:
 
 
 @numba.njit(cache=True, nogil=True)
-def _light(nx, ny, nz, lp):  # pragma: no cover - compiled
-    """(diffuse factor, specular term) for a unit normal; lp from _light_params."""
-    dk = nx * lp[0] + ny * lp[1] + nz * lp[2]
-    df = nx * lp[3] + ny * lp[4] + nz * lp[5]
-    dh = nx * lp[6] + ny * lp[7] + nz * lp[8]
-    diffuse = lp[9] + lp[10] * max(dk, 0.0) + lp[11] * max(df, 0.0)
-    spec = lp[12] * max(dh, 0.0) ** lp[13] if dh > 0.0 else 0.0
+def _light(nx, ny, nz, light):  # pragma: no cover - compiled
+    """(diffuse factor, specular term) for a unit normal under `light` (a Light)."""
+    dk = nx * light.key_x + ny * light.key_y + nz * light.key_z
+    df = nx * light.fill_x + ny * light.fill_y + nz * light.fill_z
+    dh = nx * light.half_x + ny * light.half_y + nz * light.half_z
+    diffuse = light.ambient + light.key_weight * max(dk, 0.0) + light.fill_weight * max(df, 0.0)
+    spec = light.specular * max(dh, 0.0) ** light.shininess if dh > 0.0 else 0.0
     return diffuse, spec
 
 
@@ -67,10 +108,11 @@ def _lut_index(re, im, size):  # pragma: no cover - compiled
 
 
 @numba.njit(cache=True, nogil=True)
-def _shade_sample(t, b0, b1, b2, faces, normals, phasors, front, lut, lp,
-                  back_gain):  # pragma: no cover - compiled
-    """Linear-light (r, g, b) of triangle t at barycentric weights (b0, b1, b2): Phong-interpolated
-    normal, hue from the interpolated unit phasor; back faces lit from inside and dimmed."""
+def _shade_sample(t, b0, b1, b2, mesh, light):  # pragma: no cover - compiled
+    """Linear-light (r, g, b) of triangle t of `mesh` (a ShadedMesh) at barycentric weights
+    (b0, b1, b2): Phong-interpolated normal, hue from the interpolated unit phasor; back faces
+    lit from inside and dimmed."""
+    faces, normals, phasors, lut = mesh.faces, mesh.normals, mesh.phasors, mesh.lut
     v0 = faces[t, 0]
     v1 = faces[t, 1]
     v2 = faces[t, 2]
@@ -85,18 +127,17 @@ def _shade_sample(t, b0, b1, b2, faces, normals, phasors, front, lut, lp,
         ny /= norm
         nz /= norm
     gain = 1.0
-    if not front[t]:
+    if not mesh.front[t]:
         nx, ny, nz = -nx, -ny, -nz
-        gain = back_gain
-    diffuse, spec = _light(nx, ny, nz, lp)
+        gain = light.back_gain
+    diffuse, spec = _light(nx, ny, nz, light)
     c = _lut_index(pr, pi, lut.shape[0])
     return (gain * (lut[c, 0] * diffuse + spec), gain * (lut[c, 1] * diffuse + spec),
             gain * (lut[c, 2] * diffuse + spec))
 
 
 @numba.njit(cache=True, nogil=True)
-def shade_pixels(tri, wts, faces, normals, phasors, front, lut, lp, back_gain,
-                  out, back):  # pragma: no cover - compiled
+def shade_pixels(tri, wts, mesh, light, out, back):  # pragma: no cover - compiled
     """Linear-light colour of every covered sample; marks back-facing samples in `back`."""
     h, w = tri.shape
     for j in range(h):
@@ -104,9 +145,8 @@ def shade_pixels(tri, wts, faces, normals, phasors, front, lut, lp, back_gain,
             t = tri[j, i]
             if t < 0:
                 continue
-            back[j, i] = not front[t]
-            r, g, b = _shade_sample(t, wts[j, i, 0], wts[j, i, 1], wts[j, i, 2], faces, normals,
-                                    phasors, front, lut, lp, back_gain)
+            back[j, i] = not mesh.front[t]
+            r, g, b = _shade_sample(t, wts[j, i, 0], wts[j, i, 1], wts[j, i, 2], mesh, light)
             out[j, i, 0] = r
             out[j, i, 1] = g
             out[j, i, 2] = b
@@ -117,8 +157,8 @@ LINE_SAMPLE = -2
 
 
 @numba.njit(cache=True, nogil=True)
-def shade_resolve(tri, wts, faces, normals, phasors, front, lut, lp, back_gain, ss, line_rgb,
-                   out, alpha, out_row0=0):  # pragma: no cover - compiled
+def shade_resolve(tri, wts, mesh, light, ss, line_rgb, out, alpha,
+                  out_row0=0):  # pragma: no cover - compiled
     """Shade and box-filter in one pass (opaque scenes without a cut): in each output pixel the
     samples of one triangle are shaded once, at their mean weights (the attributes are linear
     on a triangle: centroid sampling, as in multisample antialiasing), and weighted by their
@@ -167,7 +207,7 @@ def shade_resolve(tri, wts, faces, normals, phasors, front, lut, lp, back_gain, 
             for k in range(n):
                 c = counts[k]
                 sr, sg, sb = _shade_sample(ids[k], sums[k, 0] / c, sums[k, 1] / c, sums[k, 2] / c,
-                                           faces, normals, phasors, front, lut, lp, back_gain)
+                                           mesh, light)
                 r += c * sr
                 g += c * sg
                 b += c * sb
@@ -183,28 +223,27 @@ BAND_ROWS = 16
 
 
 @numba.njit(cache=True, nogil=True, parallel=True)
-def render_banded(px, py, zv, w, faces, band_start, band_faces, perspective, ss, normals, phasors,
-                   front, lut, lp, back_gain, line_rgb, out, alpha):  # pragma: no cover - compiled
+def render_banded(screen, bands, mesh, light, ss, line_rgb, out, alpha):  # pragma: no cover - compiled
     """Rasterize, shade and filter band by band (in parallel, each band with its own small
     buffers): the same result as rasterizing the whole supersampled image and then resolving
-    it, without its memory.  band_faces[band_start[b]:band_start[b + 1]] are the triangles that
-    reach band b, in index order (so ties in depth go the same way whatever the threads)."""
+    it, without its memory.  `bands` (a Bands) lists the triangles that reach each band, in
+    index order (so ties in depth go the same way whatever the threads)."""
     width = out.shape[1] * ss
     height = out.shape[0] * ss
     band = BAND_ROWS * ss
+    band_start, band_faces = bands.start, bands.faces
     n_bands = band_start.shape[0] - 1
-    clip = np.zeros((px.shape[0], 0))
+    clip = np.zeros((screen.x.shape[0], 0))
     for b in numba.prange(n_bands):
         y0 = b * band
         y1 = min(y0 + band, height)
         depth = np.full((y1 - y0, width), np.inf, dtype=np.float32)
         tri = np.full((y1 - y0, width), -1, dtype=np.int32)
         wts = np.empty((y1 - y0, width, 3), dtype=np.float32)
+        buffers = Buffers(depth, tri, wts)
         for a in range(band_start[b], band_start[b + 1]):
-            scan_triangle(band_faces[a], px, py, zv, w, faces, clip, perspective, width, y0, y1,
-                          depth, tri, wts)
-        shade_resolve(tri, wts, faces, normals, phasors, front, lut, lp, back_gain, ss, line_rgb,
-                       out, alpha, y0 // ss)
+            scan_triangle(band_faces[a], screen, mesh.faces, clip, width, y0, y1, buffers)
+        shade_resolve(tri, wts, mesh, light, ss, line_rgb, out, alpha, y0 // ss)
 
 
 def band_lists(rows_px: np.ndarray, keep: np.ndarray, height: int,
@@ -230,12 +269,12 @@ def band_lists(rows_px: np.ndarray, keep: np.ndarray, height: int,
 
 
 @numba.njit(cache=True, nogil=True)
-def shade_points(normals, psi, lut, lp):  # pragma: no cover - compiled
+def shade_points(normals, psi, lut, light):  # pragma: no cover - compiled
     """Linear-light colour (P, 3) of flat points (cut caps) with their normals and psi."""
     out = np.empty((normals.shape[0], 3), dtype=np.float32)
     size = lut.shape[0]
     for p in range(normals.shape[0]):
-        diffuse, spec = _light(normals[p, 0], normals[p, 1], normals[p, 2], lp)
+        diffuse, spec = _light(normals[p, 0], normals[p, 1], normals[p, 2], light)
         c = _lut_index(psi[p].real, psi[p].imag, size)
         for ch in range(3):
             out[p, ch] = lut[c, ch] * diffuse + spec

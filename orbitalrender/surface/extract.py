@@ -17,7 +17,8 @@ therefore run on a *signed* field wherever the state allows one:
   lattice spacing.)
 * anything else: |psi|, whose zeros are generically lines, not surfaces.
 
-For an analytic state the route follows from its terms (:func:`orbitalrender.state.phase.is_real`, one centre
+For an analytic state the route follows from its terms
+(:func:`orbitalrender.state.phase.is_real`, one centre
 and one m with coefficients of one phase).  For a user field the test is made on the
 lattice: the imaginary part left after the rotation must stay below 1e-3 of sqrt(t)
 everywhere, so that the superlevel sets of f and of |psi| differ by less than that.

@@ -1,0 +1,133 @@
+"""The command line's entry point: a light start, Ctrl-C at any point, STATEs that start with '-'.
+
+The start is checked by the set of modules a fresh interpreter has loaded (not by a
+timer); Ctrl-C by a real SIGINT sent to a real process at several moments after it
+started.  Exit status 130 after SIGINT is 128 + 2, the shell convention (common practice).
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import signal
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import pytest
+
+import orbitalrender
+from orbitalrender.cli import COMMANDS, build_parser, main, protect_leading_minus
+
+REPO = Path(__file__).resolve().parents[1]
+#: Libraries that take long to import; --help and `import orbitalrender` load none of them.
+HEAVY = ("matplotlib", "numba", "trimesh", "skimage", "scipy", "manifold3d", "PIL")
+_ENV = {**os.environ, "PYTHONPATH": str(REPO), "MPLBACKEND": "Agg"}
+
+
+def _modules_after(code: str) -> set[str]:
+    """Top-level names of the modules a fresh interpreter has loaded after running `code`."""
+    probe = (f"{code}\nimport sys, json\n"
+             "print('MODULES=' + json.dumps(sorted({m.split('.')[0] for m in sys.modules})), "
+             "file=sys.stderr)")
+    done = subprocess.run([sys.executable, "-c", probe], env=_ENV, cwd=REPO, capture_output=True,
+                          text=True, timeout=120)
+    line = next(ln for ln in done.stderr.splitlines() if ln.startswith("MODULES="))
+    return set(json.loads(line[len("MODULES="):]))
+
+
+def test_import_loads_no_heavy_library():
+    assert not _modules_after("import orbitalrender") & set(HEAVY)
+
+
+@pytest.mark.parametrize("command", [None, *COMMANDS])
+def test_help_loads_no_heavy_library(command):
+    argv = ["orbitalrender", *([command] if command else []), "--help"]
+    code = ("import runpy, sys\n"
+            f"sys.argv = {argv!r}\n"
+            "try:\n    runpy.run_module('orbitalrender', run_name='__main__')\n"
+            "except SystemExit:\n    pass")
+    loaded = _modules_after(code)
+    assert "orbitalrender" in loaded
+    assert not loaded & set(HEAVY), loaded & set(HEAVY)
+
+
+def test_public_names_resolve_and_dir_lists_them():
+    listed = dir(orbitalrender)
+    for name in orbitalrender.__all__:
+        assert name in listed
+        assert getattr(orbitalrender, name) is not None
+    with pytest.raises(AttributeError):
+        orbitalrender.no_such_name  # noqa: B018
+
+
+# -- Ctrl-C ----------------------------------------------------------------------------
+#: Moments (s after the start) at which SIGINT is sent: during the imports, the parsing
+#: and the work of a figure that takes far longer than the last of them.
+_MOMENTS_S = (0.4, 0.8, 1.5, 3.0, 5.0)
+
+
+@pytest.mark.parametrize("delay_s", _MOMENTS_S)
+def test_ctrl_c_at_any_moment_exits_130_with_one_line(delay_s, tmp_path):
+    out = tmp_path / "big.png"
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "orbitalrender", "figure", "3dz2", "4fxyz", "--resolution", "200",
+         "--size", "3000x2400", "--supersample", "4", "--out", str(out)],
+        env=_ENV, cwd=tmp_path, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+    time.sleep(delay_s)
+    proc.send_signal(signal.SIGINT)
+    _, err = proc.communicate(timeout=300)
+    assert proc.returncode == 130, err
+    assert "Traceback" not in err
+    assert err.strip() == "orbitalrender: interrupted", err
+    assert list(tmp_path.iterdir()) == []  # no partial or temporary file
+
+
+def test_interrupt_during_the_work_is_status_130(monkeypatch, capsys):
+    from orbitalrender.jobs import describe
+
+    def interrupted(*args, **kwargs):
+        raise KeyboardInterrupt
+
+    monkeypatch.setattr(describe, "describe_state", interrupted)
+    assert main(["describe", "1s"]) == 130
+    assert capsys.readouterr().err.strip() == "orbitalrender: interrupted"
+
+
+# -- STATEs that start with '-' ---------------------------------------------------------
+def test_state_with_a_leading_minus_is_a_state(capsys):
+    # -1*psi is the same state as psi up to a global phase: the same <r> (3 n^2 - l(l+1)) / 2
+    # = 5 a0 for 2p (Bethe and Salpeter, eq. 3.26)
+    for argv in (["describe", "-1*2pz", "--json"], ["describe", "-i*2pz", "--json"],
+                 ["describe", "--json", "-i*2pz"], ["describe", "--json", "--", "-i*2pz"]):
+        assert main(argv) == 0, capsys.readouterr().err
+        assert json.loads(capsys.readouterr().out)["mean_radius_a0"] == pytest.approx(5.0, rel=1e-9)
+
+
+def test_lists_and_negative_option_values(tmp_path, capsys):
+    out = tmp_path / "r.png"
+    assert main(["radial", "1s", "-2s", "--fraction", "0.5", "--out", str(out)]) == 0
+    report = tmp_path / "s.json"
+    assert main(["section", "-2pz", "--offset", "-0.5", "--pixels", "32", "--out",
+                 str(tmp_path / "s.png"), "--report", str(report)]) == 0
+    assert json.loads(report.read_text())["offset_a0"] == -0.5
+    capsys.readouterr()
+
+
+def test_rewriting_keeps_options_and_marks_states():
+    parser = build_parser()
+    assert protect_leading_minus(parser, ["figure", "--times", "-1,2", "-1*2pz"]) == \
+        ["figure", "--times=-1,2", " -1*2pz"]
+    assert protect_leading_minus(parser, ["section", "2pz", "--offset", "-1.5", "--no-nodes"]) == \
+        ["section", "2pz", "--offset=-1.5", "--no-nodes"]
+    assert protect_leading_minus(parser, ["--debug", "describe", "--res", "16", "-2s"]) == \
+        ["--debug", "describe", "--res", "16", " -2s"]
+    assert protect_leading_minus(parser, ["describe", "--", "-2s"]) == ["describe", "--", "-2s"]
+
+
+def test_a_missing_state_mentions_the_double_dash(capsys):
+    with pytest.raises(SystemExit) as exc:
+        main(["radial", "--out", "x.png"])
+    assert exc.value.code == 2
+    assert "'--'" in capsys.readouterr().err
