@@ -131,3 +131,23 @@ def test_a_missing_state_mentions_the_double_dash(capsys):
         main(["radial", "--out", "x.png"])
     assert exc.value.code == 2
     assert "'--'" in capsys.readouterr().err
+
+
+def test_an_interrupt_a_library_turned_into_another_error_is_still_an_interrupt(monkeypatch, capsys):
+    # some libraries catch KeyboardInterrupt and raise their own error instead (numba does
+    # during its import); once SIGINT has arrived, the command still ends as interrupted
+    import orbitalrender.cli as cli
+    from orbitalrender.jobs import describe
+
+    def swallowed(*args, **kwargs):
+        try:
+            cli._raise_interrupt(signal.SIGINT, None)
+        except KeyboardInterrupt:
+            raise ImportError("a library's own message") from None
+
+    monkeypatch.setattr(describe, "describe_state", swallowed)
+    assert main(["describe", "1s"]) == 130
+    assert capsys.readouterr().err.strip() == "orbitalrender: interrupted"
+    monkeypatch.undo()
+    assert main(["describe", "1s", "--json"]) == 0  # the next call starts afresh
+    capsys.readouterr()

@@ -174,3 +174,16 @@ def test_every_sign_output_refuses_a_complex_state():
         section_figure(section, section_lines(section), scheme="sign")
     with pytest.raises(ValueError, match="the field is complex"):
         sign_rotation(None, surface.psi)
+
+
+@pytest.mark.parametrize("command,extra", [("figure", ["--size", "200x160", "--resolution", "24"]),
+                                           ("section", ["--pixels", "32"]),
+                                           ("mesh", ["--fraction", "0.9", "--resolution", "24"])])
+def test_commands_refuse_the_sign_map_of_a_complex_state_in_one_line(tmp_path, capsys, command, extra):
+    from orbitalrender.cli import main
+
+    out = tmp_path / ("x.ply" if command == "mesh" else "x.png")
+    status = main([command, "2,1,1", "--phase-map", "sign", *extra, "--out", str(out)])
+    err = capsys.readouterr().err
+    assert status == 2 and "sign" in err and "real" in err and err.count("\n") == 1
+    assert not out.exists()

@@ -136,6 +136,24 @@ def _takes_value(action) -> bool:
                                    argparse._HelpAction, argparse._VersionAction))
 
 
+#: Set when SIGINT arrives during the work, so that an interrupt that a library turned into
+#: another error (numba, for one, can) still ends the command as an interruption.
+_interrupted = False
+
+
+def _raise_interrupt(signum, frame):
+    """SIGINT handler during the work: KeyboardInterrupt, so files in progress are removed."""
+    global _interrupted
+    _interrupted = True
+    raise KeyboardInterrupt
+
+
+def _stop_interrupted() -> int:
+    _on_sigint(quit_on_interrupt)
+    print("orbitalrender: interrupted", file=sys.stderr)
+    return INTERRUPTED_STATUS
+
+
 def _on_sigint(handler):
     """Install `handler` for SIGINT; returns the previous one (None: left alone, because
     SIGINT is ignored, as for a job started with nohup, or this is not the main thread)."""
@@ -190,15 +208,16 @@ def _one_line_warning(command: str):
 def _main(argv: list[str]) -> int:
     import importlib
     import os
-    import traceback
 
+    global _interrupted
+    _interrupted = False
     parser = build_parser()
     args = parser.parse_args(protect_leading_minus(parser, argv))
     user_errors = _user_errors()
     try:
         for module in getattr(args, "preload", ()):  # Ctrl-C here still quits at once (see add_command)
             importlib.import_module(module)
-        _on_sigint(signal.default_int_handler)  # the work: files in progress get removed
+        _on_sigint(_raise_interrupt)  # the work: files in progress get removed
         status = _run(args)
         sys.stdout.flush()  # inside the try, so a reader that went away is handled below
         return status
@@ -207,25 +226,30 @@ def _main(argv: list[str]) -> int:
         # a SIGPIPE ends would (status 128 + 13); further writes to stdout go nowhere
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
         return 141
-    except user_errors as exc:
-        print(f"orbitalrender {args.command}: error: {exc}", file=sys.stderr)
-        if args.debug:
-            traceback.print_exc()
-        return 2
-    except OSError as exc:  # the system refused (a full disk, a device error): not the input, not a bug
-        print(f"orbitalrender {args.command}: error: {exc}", file=sys.stderr)
-        if args.debug:
-            traceback.print_exc()
-        return 1
     except KeyboardInterrupt:
-        _on_sigint(quit_on_interrupt)
-        print("orbitalrender: interrupted", file=sys.stderr)
-        return INTERRUPTED_STATUS
+        return _stop_interrupted()
     except Exception as exc:  # noqa: BLE001 - the last line of defence of the command line
-        print(f"orbitalrender {args.command}: internal error: {type(exc).__name__}: {exc} "
-              "(run with --debug for the traceback)", file=sys.stderr)
-        if args.debug:
-            traceback.print_exc()
-        return 1
+        if _interrupted:  # a library turned the interrupt into another error
+            return _stop_interrupted()
+        return _report(exc, args, user_errors)
     finally:
         _on_sigint(quit_on_interrupt)
+
+
+def _report(exc: Exception, args, user_errors) -> int:
+    """Print the one line for `exc` (and its traceback with --debug); returns the exit status:
+    2 for the user's input, 1 when the system refused (a full disk, a device error: not the
+    input, not a bug) or for a fault inside the tool."""
+    import traceback
+
+    if isinstance(exc, user_errors):
+        status, text = 2, f"error: {exc}"
+    elif isinstance(exc, OSError):
+        status, text = 1, f"error: {exc}"
+    else:
+        status, text = 1, (f"internal error: {type(exc).__name__}: {exc} "
+                           "(run with --debug for the traceback)")
+    print(f"orbitalrender {args.command}: {text}", file=sys.stderr)
+    if args.debug:
+        traceback.print_exception(exc)
+    return status

@@ -351,7 +351,7 @@ def _draw_figure(work: _Work, path: Path):
     strip = work.spec.kind == "layout" and o.times is not None
     fig, md = figure_job(work.spec.states or (None,), o, surface_for=_figure_surfaces(work),
                          times_au=[s.time_au for s in work.spec.states] if strip else None,
-                         fit_size=work.caps.size)
+                         fit_size=work.caps.size, panels=work.spec.kind == "layout")
     return _save(work, fig, path, md)
 
 

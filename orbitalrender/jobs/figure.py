@@ -123,11 +123,12 @@ class LayoutOptions(FigureOptions):
                            lo=64, hi=4096, unit="px")
 
 
-def picture_size(options: FigureOptions, count: int, ncols: int, strip: bool = False) -> tuple[int, int]:
-    """(width, height) in px of a figure of `count` panels in `ncols` columns (`strip`: a time strip)."""
+def picture_size(options: FigureOptions, count: int, ncols: int, panels: bool = False) -> tuple[int, int]:
+    """(width, height) in px of a figure of `count` panels in `ncols` columns (`panels`: drawn as
+    panels even if there is one)."""
     if options.width_px is not None and options.height_px is not None:
         return options.width_px, options.height_px
-    if count == 1 and not strip:
+    if count == 1 and not panels:
         return (options.width_px or FIGURE_SIZE_PX[0], options.height_px or FIGURE_SIZE_PX[1])
     from ..picture.compose import fit_geometry
 
@@ -155,7 +156,8 @@ def _panel_record(surface) -> dict[str, Any]:
 def figure_job(states: Sequence, options: FigureOptions, *,
                surface_for: Callable[[Any], Any] | None = None,
                times_au: Sequence[float] | None = None,
-               fit_size: Callable[[int, int], tuple[int, int]] | None = None) -> tuple[Any, dict[str, Any]]:
+               fit_size: Callable[[int, int], tuple[int, int]] | None = None,
+               panels: bool | None = None) -> tuple[Any, dict[str, Any]]:
     """Draw the surfaces of `states` as one picture, a grid or a time strip.
 
     Parameters
@@ -171,6 +173,9 @@ def figure_job(states: Sequence, options: FigureOptions, *,
     fit_size : callable, optional
         ``fit_size(width_px, height_px) -> (width_px, height_px)`` applied to the picture
         size (a gallery's draft cap).
+    panels : bool, optional
+        True: draw even one state as a panel of a layout; default: panels for several
+        states or a time strip, one picture for one state.
 
     Returns
     -------
@@ -193,16 +198,24 @@ def figure_job(states: Sequence, options: FigureOptions, *,
                   supersample=options.supersample)
     compose = dict(dpi=options.dpi, units=options.units, legend=options.legend,
                    scale_bar=options.legend, transparent=options.transparent)
+    if options.phase_map == "sign":  # refuse a complex state before its surfaces are made
+        from ..state.model import State
+        from ..state.phase import sign_rotation
+
+        for s in states:
+            if isinstance(s, State):
+                sign_rotation(s)
     surfaces = [surface(s) for s in states]
     strip = times_au is not None
     ncols = (len(surfaces) if strip else
              getattr(options, "columns", None) or default_columns(len(surfaces)))
-    size = picture_size(options, len(surfaces), ncols, strip)
+    single = len(surfaces) == 1 and not strip if panels is None else not panels
+    size = picture_size(options, len(surfaces), ncols, strip or not single)
     if fit_size is not None:
         size = fit_size(*size)
     first = surfaces[0]
     common = dict(command="figure", view=view_record(options, size))
-    if len(surfaces) == 1 and not strip:
+    if single:
         fig, rendered = figure_3d(first, *size, title=options.title, **compose, **render)
         source = {} if first.state is not None else {"source": options.field}
         md = figure_metadata(first.state, first.fraction_requested, first.level, first.lattice_shape[0],

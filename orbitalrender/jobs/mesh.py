@@ -82,6 +82,11 @@ def check_mesh(options: MeshOptions, file: str, name: Callable[[str], str], *, s
     `state` (if known) is checked against a split by sign; with `one_file` the bodies of a
     split must fit in the one file (an STL file holds one body).
     """
+    from ..state.phase import is_real
+
+    if options.phase_map == "sign" and state is not None and not is_real(state):
+        raise UserInputError(f"{name('phase_map')} sign needs a real state (psi real up to one global "
+                             "phase); use the uniform or cvd map for a complex state")
     wants = [k for k in ("printable", "parts", "print_cutaway") if getattr(options, k)]
     if wants and options.size_mm is None:
         raise UserInputError(f"{name(wants[0])} needs {name('size_mm')}, the printed size in millimetres")
@@ -92,8 +97,6 @@ def check_mesh(options: MeshOptions, file: str, name: Callable[[str], str], *, s
         if joined:
             raise UserInputError(f"{name('split')} writes bodies for multi-material printing and does not "
                                  f"go with {name(joined[0])}")
-        from ..state.phase import is_real
-
         if options.split == "sign" and state is not None and not is_real(state):
             raise UserInputError(f"{name('split')} sign needs a real state (psi real up to one global "
                                  "phase); split by phase for a complex state")

@@ -62,6 +62,6 @@ def radial_job(states: Sequence, options: RadialOptions) -> tuple[Any, dict[str,
     from ..picture.radialplot import radial_figure, radial_metadata
 
     quantities = list(parse_quantities(options.quantity))
-    fig, marks = radial_figure(list(states), quantities, options.fraction, options.units,
+    fig, marks = radial_figure(list(states), quantities, fraction=options.fraction, units=options.units,
                                title=options.title)
-    return fig, radial_metadata(list(states), marks, quantities, options.units, dpi=options.dpi)
+    return fig, radial_metadata(list(states), marks, quantities, units=options.units, dpi=options.dpi)

@@ -108,6 +108,13 @@ def section_job(source: Any, options: SectionOptions, *, label: str,
     from ..picture.section import cross_section
     from ..picture.section_figure import section_figure, section_metadata
 
+    if options.phase_map == "sign":  # refuse a complex state before its section is evaluated
+        from ..state.model import State
+        from ..state.phase import sign_rotation
+
+        state = source if isinstance(source, State) else source.state
+        if state is not None:
+            sign_rotation(state)
     fraction = options.fraction if options.contour and level_for is None else None
     section = cross_section(source, plane_of(options), half_width_a0=options.extent_a0,
                             pixels=options.pixels, fraction=fraction)
