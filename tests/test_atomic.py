@@ -13,6 +13,8 @@ import json
 import os
 import pathlib
 import stat
+import subprocess
+import sys
 
 import matplotlib.figure
 import numpy as np
@@ -254,3 +256,107 @@ def test_gallery_reports_are_valid_json_after_a_run(tmp_path):
     (tmp_path / "out" / "p2.png.json").write_bytes(GOOD)
     assert _run(["gallery", cfg, "--out", tmp_path / "out", "--jobs", "1", "--quiet"]) == 0
     assert json.loads((tmp_path / "out" / "p2.png.json").read_text(encoding="utf-8"))
+
+
+# -- one run's outputs: distinct files, no escape through links, replaced as one set -----------
+# These run the real command line in a subprocess on real files, folders and symbolic links.
+REPO = pathlib.Path(__file__).resolve().parents[1]
+QUICK_MESH = ["--fraction", "0.9", "--resolution", "32"]
+
+
+def _cli(*args, cwd) -> subprocess.CompletedProcess:
+    env = dict(os.environ, PYTHONPATH=str(REPO), MPLBACKEND="Agg")
+    return subprocess.run([sys.executable, "-m", "orbitalrender", *map(str, args)], cwd=cwd, env=env,
+                          capture_output=True, text=True, timeout=300)
+
+
+def _one_line_status_2(done: subprocess.CompletedProcess, fragment: str) -> None:
+    assert done.returncode == 2, done.stderr
+    assert len(done.stderr.strip().splitlines()) == 1 and fragment in done.stderr, done.stderr
+
+
+@pytest.mark.parametrize("argv", [
+    ["figure", "2pz", "--out", "same.png", "--report", "same.png"],
+    ["figure", "2pz", "--out", "same.png", "--report", "./sub/../same.png"],
+    ["mesh", "2pz", *QUICK_MESH, "--out", "same.stl", "--report", "same.stl"],
+    ["section", "2pz", "--out", "same.png", "--report", "link/same.png"],
+    ["radial", "2pz", "--out", "same.png", "--report", "./same.png"],
+])
+def test_two_outputs_of_one_run_naming_one_file_are_refused(argv, tmp_path):
+    (tmp_path / "sub").mkdir()
+    (tmp_path / "link").symlink_to(tmp_path)  # link/same.png is same.png
+    (tmp_path / argv[argv.index("--out") + 1]).write_bytes(GOOD)
+    done = _cli(*argv, cwd=tmp_path)
+    _one_line_status_2(done, "two outputs of this run are the same file")
+    assert (tmp_path / argv[argv.index("--out") + 1]).read_bytes() == GOOD
+    assert _temporaries(tmp_path) == []
+
+
+def test_a_symbolic_link_at_the_output_is_not_replaced(tmp_path):
+    (tmp_path / "real.png").write_bytes(GOOD)
+    (tmp_path / "link.png").symlink_to("real.png")
+    done = _cli("radial", "1s", "--out", "link.png", cwd=tmp_path)
+    _one_line_status_2(done, "is a symbolic link")
+    assert (tmp_path / "link.png").is_symlink() and (tmp_path / "real.png").read_bytes() == GOOD
+
+
+def test_gallery_writes_do_not_escape_the_output_folder_through_a_link(tmp_path):
+    outside = tmp_path / "outside"
+    outside.mkdir()
+    out = tmp_path / "out"
+    out.mkdir()
+    (out / "link").symlink_to("../outside")
+    cfg = tmp_path / "g.toml"
+    cfg.write_text('[[outputs]]\nname = "p"\nkind = "radial"\nstates = ["1s"]\nfile = "link/x.png"\n',
+                   encoding="utf-8")
+    done = _cli("gallery", cfg, "--out", out, "--quiet", cwd=tmp_path)
+    _one_line_status_2(done, "leads outside the output folder")
+    assert list(outside.iterdir()) == []
+
+
+def test_mesh_parts_replace_the_earlier_set_and_remove_its_stale_parts(tmp_path):
+    for k in (1, 2, 3, 4):
+        (tmp_path / f"lobes_part{k}.stl").write_bytes(GOOD)
+    (tmp_path / "lobes_band2.stl").write_bytes(GOOD)
+    (tmp_path / "lobes_notes.stl").write_bytes(GOOD)  # not a name the mesh command writes
+    done = _cli("mesh", "2pz", *QUICK_MESH, "--size-mm", "40", "--parts", "--out", "lobes.stl",
+                cwd=tmp_path)
+    assert done.returncode == 0, done.stderr
+    names = sorted(p.name for p in tmp_path.iterdir())
+    assert names == ["lobes_notes.stl", "lobes_part1.stl", "lobes_part2.stl"]  # 2pz has two lobes
+    assert all((tmp_path / n).read_bytes() != GOOD for n in names[1:])
+
+
+def test_a_mesh_run_failing_midway_keeps_the_whole_earlier_set(tmp_path):
+    for k in (1, 3):
+        (tmp_path / f"lobes_part{k}.stl").write_bytes(GOOD)
+    (tmp_path / "lobes_part2.stl").mkdir()  # the second part cannot be written
+    done = _cli("mesh", "2pz", *QUICK_MESH, "--size-mm", "40", "--parts", "--out", "lobes.stl",
+                cwd=tmp_path)
+    _one_line_status_2(done, "is a folder")
+    assert (tmp_path / "lobes_part1.stl").read_bytes() == GOOD  # not replaced by the new part 1
+    assert (tmp_path / "lobes_part3.stl").read_bytes() == GOOD
+    assert _temporaries(tmp_path) == []
+
+
+def test_a_gallery_output_failing_after_its_picture_keeps_the_earlier_picture_and_report(tmp_path):
+    cfg = tmp_path / "g.toml"
+    cfg.write_text('[[outputs]]\nname = "p"\nkind = "radial"\nstates = ["1s"]\n', encoding="utf-8")
+    out = tmp_path / "out"
+    (out / ".index" / "p.png.png").mkdir(parents=True)  # its thumbnail cannot be written
+    (out / "p.png").write_bytes(GOOD)
+    (out / "p.png.json").write_bytes(GOOD)
+    done = _cli("gallery", cfg, "--out", out, "--quiet", cwd=tmp_path)
+    assert done.returncode != 0 and "p.png.png is a folder" in done.stderr, done.stderr
+    assert (out / "p.png").read_bytes() == GOOD and (out / "p.png.json").read_bytes() == GOOD
+    assert _temporaries(out) == []
+
+
+def test_a_long_legal_file_name_is_written(tmp_path):
+    limit = os.pathconf(tmp_path, "PC_NAME_MAX")
+    name = "r" * (limit - len(".png")) + ".png"  # the longest name the folder allows
+    done = _cli("radial", "1s", "--dpi", "20", "--out", name, cwd=tmp_path)
+    assert done.returncode == 0, done.stderr
+    assert (tmp_path / name).stat().st_size > 0 and _temporaries(tmp_path) == []
+    too_long = "r" + name
+    _one_line_status_2(_cli("radial", "1s", "--out", too_long, cwd=tmp_path), "file name is")

@@ -79,8 +79,8 @@ def test_field_report(tmp_path, capsys):
     (["2,1,3"], "m must satisfy |m| <= l"),
     (["5gxyz"], "expected ',l,m' or an orbital letter"),
     (["3dq"], "unknown d orbital label"),
-    (["1s", "--Z", "0"], "--Z must be a number in (0, 200]"),
-    (["1s", "--Z", "-2"], "--Z must be a number in (0, 200]"),
+    (["1s", "--Z", "0"], "--Z must be a number in [0.01, 137]"),
+    (["1s", "--Z", "-2"], "--Z must be a number in [0.01, 137]"),
     (["3,2"], "STATE '3,2': expected ','"),
     (["1s", "--nucleus", "unobtainium"], "unknown nucleus"),
     ([], "give either a STATE or --field FILE"),
@@ -116,7 +116,7 @@ def test_argparse_errors_exit_2(capsys):
         main(["describe", "1s", "--bogus", "1"])
     assert ex.value.code == 2
     assert main(["describe", "1s", "--Z", "abc"]) == 2
-    assert "--Z must be a number in (0, 200], got 'abc'" in capsys.readouterr().err
+    assert "--Z must be a number in [0.01, 137], got 'abc'" in capsys.readouterr().err
 
 
 def test_module_entry_point_runs():

@@ -146,8 +146,8 @@ def test_sign_split_of_a_complex_state_is_refused(tmp_path, capsys):
 @pytest.mark.parametrize(("extra", "message"), [
     (["--out", "{d}/model.amf"], "cannot tell the mesh format"),
     (["--out", "{d}/model.3mf"], "a .3mf file holds millimetres"),
-    (["--out", "{d}/model.stl", "--size-mm", "0"], "--size-mm must be a number in (0, 10000]"),
-    (["--out", "{d}/model.stl", "--size-mm", "-10"], "--size-mm must be a number in (0, 10000]"),
+    (["--out", "{d}/model.stl", "--size-mm", "0"], "--size-mm must be a number in [0.1, 10000]"),
+    (["--out", "{d}/model.stl", "--size-mm", "-10"], "--size-mm must be a number in [0.1, 10000]"),
     (["--out", "{d}/model.stl", "--printable"], "needs --size-mm (the printed size) or --mm-per-a0"),
     (["--out", "{d}/model.stl", "--mm-per-a0", "-1"], "--mm-per-a0 must be a number in (0, 1000]"),
     (["--out", "{d}/model.stl", "--size-mm", "60", "--mm-per-a0", "2"], "exclude each other"),
@@ -179,7 +179,7 @@ def test_an_output_path_that_cannot_be_a_file_is_refused(tmp_path, capsys):
     plain.write_text("a file, not a folder")
     folder = tmp_path / "taken.stl"
     folder.mkdir()
-    for out, message in ((plain / "m.stl", "does not exist"), (folder, "is a folder")):
+    for out, message in ((plain / "m.stl", "is a file, not a folder"), (folder, "is a folder")):
         status, _, err = _run(capsys, "2pz", "--fraction", "0.9", *LOW, "--out", str(out))
         assert status == 2 and message in err and len(err.strip().splitlines()) == 1
     assert sorted(p.name for p in tmp_path.iterdir()) == ["notes.txt", "taken.stl"]

@@ -249,3 +249,13 @@ def test_a_field_whose_level_is_its_maximum_is_refused_as_empty():
     field = Lattice(lattice.values, lattice.origin_a0, lattice.spacing_a0, None)
     with pytest.raises(ValueError, match="empty at this resolution"):
         extract_surface(field, 0.0625)
+
+
+def test_too_little_free_memory_says_so_instead_of_suggesting_a_useless_resolution(monkeypatch):
+    # free memory cannot be taken away for real in a test: the system's figure is replaced by
+    # 4 KiB, less than an 8^3 lattice needs (it once suggested "the largest resolution that fits is 2")
+    from orbitalrender.lattice import memory
+
+    monkeypatch.setattr(memory, "available_bytes", lambda: 4 * 1024)
+    with pytest.raises(memory.MemoryLimitError, match="this machine has too little free memory now"):
+        memory.require_lattice_memory(64, np.complex64, what="lattice")

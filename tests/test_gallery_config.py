@@ -69,14 +69,14 @@ def _message(tmp_path: Path, text: str) -> str:
 @pytest.mark.parametrize("body, expected", [
     # out of range, with the exact wording of the message
     ('name = "shell3"\nkind = "figure"\nstate = "3s"\nfraction = 1.5',
-     "output 'shell3' (outputs[1]): key 'fraction' must be a number in (0, 1), got 1.5"),
+     "output 'shell3' (outputs[1]): key 'fraction' must be a number in (0, 0.9999], got 1.5"),
     # wrong type
     ('name = "shell3"\nkind = "figure"\nstate = "3s"\nresolution = "high"',
      "output 'shell3' (outputs[1]): key 'resolution' must be an integer in [8, 1024], got 'high'"),
     ('name = "shell3"\nkind = "figure"\nstate = "3s"\nresolution = 64.0',
      "key 'resolution' must be an integer"),
     ('name = "shell3"\nkind = "figure"\nstate = "3s"\nZ = true',
-     "key 'Z' must be a number in (0, 200], got true"),
+     "key 'Z' must be a number in [0.01, 137], got true"),
     # allowed values
     ('name = "shell3"\nkind = "figure"\nstate = "3s"\nphase_map = "rainbow"',
      "key 'phase_map' must be one of 'uniform', 'cvd', 'sign', got 'rainbow'"),
@@ -122,7 +122,7 @@ def test_duplicate_names_and_files_are_refused(tmp_path):
 
 def test_defaults_and_top_level_errors(tmp_path):
     out = '\n[[outputs]]\nname = "a"\nkind = "radial"\nstates = ["1s"]\n'
-    assert "defaults: key 'fraction' must be a number in (0, 1), got 0" in \
+    assert "defaults: key 'fraction' must be a number in (0, 0.9999], got 0" in \
         _message(tmp_path, "[defaults]\nfraction = 0\n" + out)
     assert "defaults: key 'name' can only be set in an output" in \
         _message(tmp_path, '[defaults]\nname = "x"\n' + out)

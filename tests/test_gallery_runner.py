@@ -160,7 +160,7 @@ def test_broken_config_writes_nothing_and_keeps_earlier_outputs(first_run, capsy
     out = tmp / "out"
     before = {p: p.read_bytes() for p in out.rglob("*") if p.is_file() and ".cache" not in p.parts}
     broken = _config(tmp, CONFIG.replace("fraction = 0.8", "fraction = 1.5"), "broken.toml")
-    with pytest.raises(ConfigError, match=r"defaults: key 'fraction' must be a number in \(0, 1\)"):
+    with pytest.raises(ConfigError, match=r"defaults: key 'fraction' must be a number in \(0, 0.9999\]"):
         run_gallery(broken, out)
     assert main(["gallery", str(broken), "--out", str(out)]) == 2
     err = capsys.readouterr().err.strip().splitlines()

@@ -151,8 +151,8 @@ def test_out_of_range_values_are_refused_in_the_same_words(kind, tmp_path, capsy
 
 @pytest.mark.parametrize("argv, key, value, words", [
     # boundary values named in the definitions; both front ends refuse them alike
-    (["figure", "2pz", "--fraction", "1"], "fraction", 1.0, "a number in (0, 1), got 1.0"),
-    (["figure", "2pz", "--fraction", "0"], "fraction", 0.0, "a number in (0, 1), got 0.0"),
+    (["figure", "2pz", "--fraction", "1"], "fraction", 1.0, "a number in (0, 0.9999], got 1.0"),
+    (["figure", "2pz", "--fraction", "0"], "fraction", 0.0, "a number in (0, 0.9999], got 0.0"),
     (["figure", "2pz", "--size", "63x100"], "width_px", 63, "an integer in [64, 8192], got 63"),
     (["figure", "2pz", "--size", "8193x100"], "width_px", 8193, "an integer in [64, 8192], got 8193"),
     (["figure", "2pz", "--supersample", "0"], "supersample", 0, "an integer in [1, 4], got 0"),

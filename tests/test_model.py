@@ -173,3 +173,13 @@ def test_state_refuses_bad_physics():
             State(t, **kwargs)
     with pytest.raises(ValueError):
         State(())
+
+
+def test_huge_and_tiny_coefficients_normalise_without_overflow():
+    # |1s> and |2pz> are orthonormal (Bethe and Salpeter, section 3), so c (|1s> + |2pz>)
+    # normalises to coefficients 1/sqrt(2) for any c; 1e300 squared overflows a double.
+    from orbitalrender import eigenstate, superpose
+
+    for c in (1e300, 1e-300):
+        s = superpose([(c, eigenstate(1, 0, 0)), (c, eigenstate(2, 1, 0))])
+        assert [abs(t.coefficient) for t in s.terms] == pytest.approx([2 ** -0.5] * 2, rel=1e-12)

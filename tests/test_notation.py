@@ -79,7 +79,7 @@ def test_impossible_states_are_value_errors(text):
 
 
 def test_nonpositive_z_and_non_text_are_refused():
-    with pytest.raises(ValueError, match="Z must be positive"):
+    with pytest.raises(ValueError, match="Z must be from 0.01 to 137"):
         parse_state("1s", Z=0)
     with pytest.raises(StateSyntaxError):
         parse_state(3)

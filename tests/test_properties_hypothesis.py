@@ -33,8 +33,10 @@ from orbitalrender.state.radial import radius_holding
 from orbitalrender.surface.extract import extract_surface
 from orbitalrender.surface.level import level_for_fraction
 
-FEW = settings(max_examples=12, deadline=None, database=None, suppress_health_check=[HealthCheck.too_slow])
-SOME = settings(max_examples=60, deadline=None, database=None, suppress_health_check=[HealthCheck.too_slow])
+# The profile (tests/conftest.py) sets derandomization, deadline and database; SOME takes its
+# number of examples, FEW (tests that sample whole lattices) a fifth of it.
+SOME = settings()
+FEW = settings(max_examples=max(1, settings.default.max_examples // 5))
 
 
 # -- strategies --------------------------------------------------------------------------------
@@ -306,8 +308,8 @@ def test_mutated_configs_validate_or_raise_a_one_line_value_error(text):
         assert len(config.outputs) >= 1
 
 
-@settings(max_examples=25, deadline=None, database=None, suppress_health_check=[HealthCheck.too_slow,
-                                                                  HealthCheck.function_scoped_fixture])
+@settings(max_examples=max(1, settings.default.max_examples * 5 // 12),
+          suppress_health_check=[HealthCheck.too_slow, HealthCheck.function_scoped_fixture])
 @given(mutated(VALID_STATES[:3] + VALID_STATES[4:]))
 def test_mutated_states_on_the_command_line_give_status_0_or_2_never_a_traceback(capsys, text):
     # (the two-centre seed is left out: each of its valid mutants costs a Becke quadrature)

@@ -7,7 +7,7 @@ import math
 import numpy as np
 import pytest
 import sympy as sp
-from hypothesis import given, settings
+from hypothesis import given
 from hypothesis import strategies as st
 from sympy.physics.hydrogen import R_nl
 
@@ -50,7 +50,6 @@ def test_fraction_outside_the_open_interval_is_refused(fraction):
         radius_holding(1, 0, fraction)
 
 
-@settings(max_examples=30, deadline=None)
 @given(n=st.integers(1, 40), data=st.data(), Z=st.floats(0.5, 20.0), F=st.floats(0.01, 0.99))
 def test_radius_holding_inverts_the_cumulative(n, data, Z, F):
     # P(r < radius_holding(F)) = F, and the whole radial probability is one.

@@ -138,10 +138,13 @@ STATE_ERRORS = [
 ]
 OPTION_ERRORS = [
     (["--Z", "nan"], "Z must be"),
-    (["--Z", "-1"], "--Z must be a number in (0, 200]"),
+    (["--Z", "-1"], "--Z must be a number in [0.01, 137]"),
     (["--Z", "inf"], "Z must be"),
+    (["--Z", "1e-300"], "--Z must be a number in [0.01, 137]"),  # once doubled a search bound without end
+    (["--Z", "1000"], "--Z must be a number in [0.01, 137]"),
     (["--nucleus", "bogus"], "unknown nucleus 'bogus'"),
-    (["--nucleus", "nan"], "positive"),
+    (["--nucleus", "nan"], "finite"),
+    (["--nucleus", "1e-200"], "mass ratio must be at least 1"),
     (["--time", "nan"], "--time must be a finite number"),
 ]
 COMMAND_ERRORS = {
@@ -177,8 +180,8 @@ COMMAND_ERRORS = {
         (["--box", "0.5"], "edge of the lattice"),
         (["--resolution", "5000"], "--resolution must be an integer in [8, 1024]"),
         (["--out", "m.xyz"], ".xyz"),
-        (["--size-mm", "-3"], "--size-mm must be a number in (0, 10000]"),
-        (["--size-mm", "nan"], "--size-mm must be a number in (0, 10000]"),
+        (["--size-mm", "-3"], "--size-mm must be a number in [0.1, 10000]"),
+        (["--size-mm", "nan"], "--size-mm must be a number in [0.1, 10000]"),
         (["--printable"], "--size-mm"),
         (["--split", "phase", "--bands", "0"], "--bands must be an integer in [2, 24]"),
         (["--size-mm", "40", "--printable", "--min-thickness-mm", "nan"], "thickness"),
@@ -390,3 +393,34 @@ def test_a_reader_that_goes_away_is_no_error():
     proc.wait(timeout=120)
     assert proc.returncode in (0, 141), err
     assert err == ""
+
+
+# -- extreme numbers and odd files: the tool's own one-line message and status 2 -----------------
+@pytest.mark.parametrize("argv, fragment", [
+    (["mesh", "2pz", "--fraction", "0.9", "--resolution", "24", "--size-mm", "1e-300", "--out", "m.stl"],
+     "--size-mm must be a number in [0.1, 10000]"),  # was ZeroDivisionError, status 1
+    (["mesh", "2pz", "--fraction", "0.9", "--resolution", "24", "--size-mm", "1e300", "--out", "m.stl"],
+     "--size-mm must be a number in [0.1, 10000]"),  # was OverflowError, status 1
+    (["describe", "--field", "/dev/zero"], "not a regular file"),  # was 'no such file'
+    (["describe", "--field", "."], "not a regular file"),
+    (["radial", "1s", "--out", "notes.txt/r.png"], "notes.txt is a file, not a folder"),
+    (["gallery", "g.toml", "--out", "notes.txt"], "is a file, not a folder"),  # was FileExistsError, 1
+])
+def test_extreme_sizes_and_odd_files_are_one_line_and_status_2(argv, fragment, tmp_path, capsys,
+                                                               monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "notes.txt").write_text("a file, not a folder", encoding="utf-8")
+    _gallery_config(tmp_path)
+    assert_one_line_error(*run_cli(argv, capsys)[::2], fragment)
+
+
+def test_a_huge_plane_normal_is_a_direction_not_an_overflow(tmp_path, capsys):
+    # (1e300, 1e300, 0) points along (1, 1, 0): its length squared overflows a double, so the
+    # normal must be scaled before it is normalised (it was reported as the zero vector)
+    from orbitalrender.picture.plane import plane
+
+    p = plane((1e300, 1e300, 0.0))
+    assert p.normal == pytest.approx((2 ** -0.5, 2 ** -0.5, 0.0), abs=1e-15)
+    status, _, err = run_cli(["section", "2pz", "--normal", "1e300,1e300,0", "--pixels", "32",
+                              "--out", tmp_path / "s.png"], capsys)
+    assert status == 0 and err == ""

@@ -18,6 +18,7 @@ from __future__ import annotations
 import signal
 import sys
 
+from ..atomic import check_distinct_outputs, output_set
 from ..errors import INTERRUPTED_STATUS, UserInputError, quit_on_interrupt
 
 __all__ = ["main", "build_parser", "COMMANDS"]
@@ -180,6 +181,31 @@ def main(argv: list[str] | None = None) -> int:
             _on_sigint(previous)
 
 
+#: Commands whose outputs are not one set (the gallery replaces each output's files as a set).
+_SEPARATE_OUTPUTS = frozenset({"gallery"})
+
+
+def _run(args) -> int:
+    """The subcommand, with its outputs replaced together (the gallery: per output), and the
+    tool's own warnings shown as one line each."""
+    import warnings
+
+    with warnings.catch_warnings():
+        warnings.showwarning = _one_line_warning(args.command)
+        if args.command in _SEPARATE_OUTPUTS:
+            return int(args.run(args) or 0)
+        check_distinct_outputs([getattr(args, "out", None), getattr(args, "report", None)])
+        with output_set():
+            return int(args.run(args) or 0)
+
+
+def _one_line_warning(command: str):
+    """A warnings.showwarning that prints a warning as one line on stderr."""
+    def show(message, category, filename, lineno, file=None, line=None) -> None:
+        print(f"orbitalrender {command}: warning: {message}", file=sys.stderr)
+    return show
+
+
 def _main(argv: list[str]) -> int:
     import importlib
     import os
@@ -193,7 +219,7 @@ def _main(argv: list[str]) -> int:
         for module in getattr(args, "preload", ()):  # Ctrl-C here still quits at once (see add_command)
             importlib.import_module(module)
         _on_sigint(_raise_interrupt)  # the work: files in progress get removed
-        status = int(args.run(args) or 0)
+        status = _run(args)
         sys.stdout.flush()  # inside the try, so a reader that went away is handled below
         return status
     except BrokenPipeError:

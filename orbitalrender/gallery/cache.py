@@ -289,7 +289,7 @@ def _lookup(cache: DiskCache, stats: CacheStats, kind: str, key: str,
     stats.count(kind, computed=True)
     if path is not None:
         arrays, scalars = parts(value)
-        with atomic_path(path) as tmp:
+        with atomic_path(path, join_set=False) as tmp:  # readable at once by later outputs
             _write(tmp, _meta(kind, key, arrays, scalars), arrays)
     return value
 

@@ -8,7 +8,7 @@ Every mistake raises :class:`ConfigError` with one line that names the file,
 the table (``defaults`` or ``output 'NAME' (outputs[i])``) and the key, and says
 what was expected, e.g.::
 
-    demo.toml: output 'shell3' (outputs[2]): key 'fraction' must be a number in (0, 1), got 1.5
+    demo.toml: output 'shell3' (outputs[2]): key 'fraction' must be a number in (0, 0.9999], got 1.5
 
 Validation touches no output: it parses every STATE, checks that user-field
 files exist, and refuses duplicate output names and file names, so a broken
@@ -382,7 +382,7 @@ def parse_config(data: Mapping[str, Any], path: str | os.PathLike = "config.toml
     ...     parse_config({"outputs": [{"name": "p", "kind": "radial", "states": ["2pz"], "fraction": 2}]})
     ... except ConfigError as exc:
     ...     print(exc)
-    config.toml: output 'p' (outputs[0]): key 'fraction' must be a number in (0, 1), got 2
+    config.toml: output 'p' (outputs[0]): key 'fraction' must be a number in (0, 0.9999], got 2
     """
     path = Path(path)
     folder = path.parent

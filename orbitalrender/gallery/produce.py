@@ -273,9 +273,9 @@ def _png_thumbnail(source: Path) -> Callable[[Path], None]:
     def make(target: Path) -> None:
         from PIL import Image
 
-        from ..atomic import atomic_path
+        from ..atomic import atomic_path, pending_path
 
-        with Image.open(source) as im:
+        with Image.open(pending_path(source)) as im:  # the picture may still wait for its rename
             im = im.convert("RGBA")
             im.thumbnail((THUMBNAIL_PX, THUMBNAIL_PX), Image.Resampling.LANCZOS)
             with atomic_path(target) as tmp:
@@ -340,19 +340,22 @@ def make_output(spec: OutputSpec, out_dir: Path, cache: DiskCache,
     report_path = out_dir / spec.report_file
     thumb = out_dir / INDEX_FOLDER / (spec.file + ".png")
     try:
+        from ..atomic import output_set, resolve_inside
         from ..picture.output import write_report
 
+        resolve_inside(out_dir, spec.file)  # a link made since the run began must not lead out
         path.parent.mkdir(parents=True, exist_ok=True)
         thumb.parent.mkdir(parents=True, exist_ok=True)
         work = _Work(spec, out_dir, cache, caps, stats)
-        report, thumbnail = _DRAWERS[spec.kind](work, path)
-        report = {**report, "gallery_output": spec.name, "gallery_settings": spec.options}
-        write_report(report_path, report)
+        with output_set():  # picture, report and thumbnail replace the earlier ones together
+            report, thumbnail = _DRAWERS[spec.kind](work, path)
+            report = {**report, "gallery_output": spec.name, "gallery_settings": spec.options}
+            write_report(report_path, report)
+            if thumbnail is not None:
+                thumbnail(thumb)
+            else:
+                thumb = None
         stats.drawn += 1
-        if thumbnail is not None:
-            thumbnail(thumb)
-        else:
-            thumb = None
     except Exception as exc:  # noqa: BLE001 - one failed output must not stop the others
         return (OutputRecord(spec, path, report_path, None, time.perf_counter() - t0, failure_text(exc),
                              isinstance(exc, _USER_ERRORS)), stats)

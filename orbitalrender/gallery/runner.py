@@ -41,7 +41,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import IO
 
-from ..atomic import check_writable
+from ..atomic import check_outputs_inside, check_writable
 from ..lattice.memory import MemoryLimitError
 from .cache import DEFAULT_LIMIT_BYTES, CacheStats, DiskCache, file_sha256
 from .config import GalleryConfig, OutputSpec, load_config
@@ -384,8 +384,12 @@ def run_gallery(config: GalleryConfig | str | os.PathLike, out_dir: str | os.Pat
     if not isinstance(config, GalleryConfig):
         config = load_config(config)
     out = Path(out_dir)
+    if out.exists() and not out.is_dir():
+        raise NotADirectoryError(f"the output folder {out} is a file, not a folder")
     out.mkdir(parents=True, exist_ok=True)
     check_writable(out / "index.html")
+    check_outputs_inside(out, ["index.html"] + [name for spec in config.outputs
+                                                for name in (spec.file, spec.report_file)])
     jobs = default_jobs() if jobs is None else int(jobs)
     if jobs < 1:
         raise ValueError(f"jobs must be at least 1, got {jobs}")

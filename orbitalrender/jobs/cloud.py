@@ -16,6 +16,7 @@ from typing import Any, ClassVar
 
 from ..errors import UserInputError
 from ..lattice.cloud import MAX_POINTS
+from ..state.limits import FRACTION_MAX
 from .figure import FIGURE_SIZE_PX, ViewOptions
 from .option import option
 from .shared import FRACTION, FileOptions, LatticeOptions, PictureOptions, StateOptions, box_of, lazy
@@ -43,7 +44,7 @@ class CloudOptions(ViewOptions, FileOptions, PictureOptions, LatticeOptions, Sta
                               "the same file (default: a fresh seed, recorded in the report)",
                               type="integer", lo=0, metavar="S")
     fraction: float = option(FRACTION, "F of the surface that the report counts the points inside of "
-                             "(and that --surface draws)", lo=0, hi=1, lo_open=True, hi_open=True,
+                             "(and that --surface draws)", lo=0, hi=FRACTION_MAX, lo_open=True,
                              metavar="F")
     slab: str | None = option(None, "draw only the points with |AXIS - C| <= H, C and H in a0: a thin "
                               "section, seen face on unless --azimuth or --elevation is given",

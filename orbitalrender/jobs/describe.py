@@ -15,6 +15,7 @@ from dataclasses import dataclass
 from typing import Any, ClassVar
 
 from ..errors import UserInputError
+from ..state.limits import FRACTION_MAX
 from .option import option
 from .shared import FieldOptions, LatticeOptions, StateOptions, box_of, dtype_of
 
@@ -35,9 +36,9 @@ class DescribeOptions(LatticeOptions, FieldOptions, StateOptions):
     states: tuple[str, ...] = ()
     json: bool = option(False, "print one JSON object instead of text", type="bool", key="")
     fraction: float | None = option(
-        None, "also extract the surface enclosing probability F (0 < F < 1) and report its level, "
-              "parts, Euler characteristics, genus, volumes and area", lo=0, hi=1, lo_open=True,
-        hi_open=True, metavar="F")
+        None, "also extract the surface enclosing probability F (0 < F <= 0.9999) and report its "
+              "level, parts, Euler characteristics, genus, volumes and area", lo=0, hi=FRACTION_MAX,
+        lo_open=True, metavar="F")
 
 
 def describe_state(state) -> dict:

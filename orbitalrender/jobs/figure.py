@@ -15,6 +15,7 @@ from typing import Any, ClassVar
 
 from ..picture.camera import PROJECTIONS
 from ..picture.triad import TRIAD_MODES
+from ..state.limits import FRACTION_MAX
 from .option import Options, option
 from .shared import (
     FRACTION,
@@ -92,7 +93,7 @@ class FigureOptions(ViewOptions, FileOptions, PictureOptions, LatticeOptions, Fi
 
     STATE_NARGS: ClassVar[str] = "?"
     states: tuple[str, ...] = ()
-    fraction: float = option(FRACTION, FRACTION_HELP, lo=0, hi=1, lo_open=True, hi_open=True,
+    fraction: float = option(FRACTION, FRACTION_HELP, lo=0, hi=FRACTION_MAX, lo_open=True,
                              metavar="F")
     title: str | None = option(None, "title of a single picture (default: state and F)", type="text")
     supersample: int = option(3, "antialiasing: K x K samples per pixel", type="integer", lo=1, hi=4,

@@ -21,6 +21,7 @@ from ..mesh.print_options import (
     DEFAULT_MIN_THICKNESS_MM,
     DEFAULT_STRUT_FRACTION,
 )
+from ..state.limits import FRACTION_MAX, SIZE_MM_RANGE
 from .option import option
 from .shared import (
     FRACTION,
@@ -37,9 +38,6 @@ __all__ = ["MeshOptions", "BASES", "MESH_SUFFIXES", "check_mesh", "print_options
 
 #: Mesh formats, by suffix; the first is the gallery's default.
 MESH_SUFFIXES = (".stl", ".glb", ".ply", ".obj", ".3mf")
-#: Largest printed size accepted, mm (our choice: far beyond any desktop printer, small
-#: enough to catch a size given in micrometres by mistake).
-_MAX_SIZE_MM = 10000.0
 #: Largest scale accepted, mm per a0 (our choice: a 3s model at F = 0.9 is then 39 m across,
 #: so any larger value is a mistake of unit).
 _MAX_MM_PER_A0 = 1000.0
@@ -51,11 +49,12 @@ class MeshOptions(FileOptions, LatticeOptions, FieldOptions, StateOptions):
 
     STATE_NARGS: ClassVar[str] = "?"
     states: tuple[str, ...] = ()
-    fraction: float = option(FRACTION, FRACTION_HELP, lo=0, hi=1, lo_open=True, hi_open=True, metavar="F")
+    fraction: float = option(FRACTION, FRACTION_HELP, lo=0, hi=FRACTION_MAX, lo_open=True, metavar="F")
     units: str = option("a0", "length unit of the coordinates", type="text", choices=LENGTH_UNITS)
     size_mm: float | None = option(None, "the largest side of what is written, in mm: with printable the "
                                    "whole printed object (base, struts and cut included), else the surface",
-                                   lo=0, hi=_MAX_SIZE_MM, lo_open=True, unit="mm", metavar="S")
+                                   lo=SIZE_MM_RANGE[0], hi=SIZE_MM_RANGE[1], unit="mm",
+                                   metavar="S")
     mm_per_a0: float | None = option(None, "one scale instead of a size: millimetres per Bohr radius, so "
                                      "models at one scale compare in size (supports are added around the "
                                      "orbital)", lo=0, hi=_MAX_MM_PER_A0, lo_open=True, unit="mm",

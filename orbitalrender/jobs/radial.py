@@ -11,6 +11,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Any, ClassVar
 
+from ..state.limits import FRACTION_MAX
 from .option import option
 from .shared import FRACTION, FileOptions, PictureOptions, StateOptions
 
@@ -51,8 +52,8 @@ class RadialOptions(FileOptions, PictureOptions, StateOptions):
         ("all",), "R, density, cumulative, a list of them, or all", type="texts", metavar="Q",
         check=parse_quantities,
         expected="'all', or one or a list of 'R', 'density', 'cumulative'")
-    fraction: float = option(FRACTION, "mark the radius holding this probability, between 0 and 1",
-                             lo=0, hi=1, lo_open=True, hi_open=True, metavar="F")
+    fraction: float = option(FRACTION, "mark the radius holding this probability, above 0 and at most 0.9999",
+                             lo=0, hi=FRACTION_MAX, lo_open=True, metavar="F")
     title: str | None = option(None, "title (default: from the states)", type="text")
 
 

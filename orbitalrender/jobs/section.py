@@ -12,6 +12,7 @@ from dataclasses import dataclass, replace
 from typing import Any, ClassVar
 
 from ..picture.density import DENSITY_SCALES
+from ..state.limits import FRACTION_MAX
 from .option import option
 from .shared import FRACTION, PHASE_MAPS, FieldOptions, FileOptions, PictureOptions, StateOptions, lazy
 
@@ -60,7 +61,7 @@ class SectionOptions(FileOptions, PictureOptions, FieldOptions, StateOptions):
                               "coordinate plane: the coordinate not in it)", unit="a0", flag="--offset",
                               metavar="D")
     fraction: float = option(FRACTION, "draw the cut through the surface enclosing this probability, "
-                             "between 0 and 1", lo=0, hi=1, lo_open=True, hi_open=True, metavar="F")
+                             "above 0 and at most 0.9999", lo=0, hi=FRACTION_MAX, lo_open=True, metavar="F")
     contour: bool = option(True, "leave out that contour", type="bool")
     nodes: bool = option(True, "leave out the nodal lines", type="bool")
     extent_a0: float | None = option(None, "half the side of the square shown (default: from the state)",

@@ -15,6 +15,7 @@ from typing import Any
 
 from ..colormap import PHASE_SCHEMES as PHASE_MAPS
 from ..picture.output import DPI_RANGE, TEXT_SIZE_RANGE_PT
+from ..state.limits import Z_RANGE
 from .option import Options, option
 
 __all__ = ["StateOptions", "FieldOptions", "LatticeOptions", "PictureOptions", "FileOptions",
@@ -25,7 +26,7 @@ __all__ = ["StateOptions", "FieldOptions", "LatticeOptions", "PictureOptions", "
 #: The probability enclosed by surfaces, marked on radial plots and cut by sections when
 #: no other is asked for (our choice: the common textbook picture shows 90 %).
 FRACTION = 0.9
-FRACTION_HELP = "probability enclosed by the surface, between 0 and 1"
+FRACTION_HELP = "probability enclosed by the surface, above 0 and at most 0.9999"
 #: Names of the lattice precisions (``lattice.sampler.PRECISIONS`` holds their dtypes).
 PRECISION_NAMES = ("single", "double")
 #: Length units of axes, scale bars and mesh coordinates: the keys of
@@ -57,7 +58,7 @@ def _nucleus(value: Any) -> None:
 class StateOptions(Options):
     """The state's physics: nuclear charge, reduced mass and the time of a superposition."""
 
-    Z: float = option(1.0, "nuclear charge", lo=0, hi=200, lo_open=True, flag="--Z")
+    Z: float = option(1.0, "nuclear charge", lo=Z_RANGE[0], hi=Z_RANGE[1], flag="--Z")
     nucleus: Any = option(
         "infinite", f"{', '.join(NUCLEUS_NAMES)}, or a nucleus-to-electron mass ratio",
         type="value", check=_nucleus,

@@ -51,6 +51,11 @@ def sampling_bytes(resolution: int, dtype=np.complex64, chunk_bytes: int = 0) ->
     return int(resolution**3 * item * (1.0 + _OCTANT_FRACTION) + chunk_bytes)
 
 
+#: Smallest lattice worth suggesting: the 8 points per axis that the sampler accepts at
+#: least (lattice/sampler.py check_resolution), which put about four points across a lobe.
+_SMALLEST_USEFUL_RESOLUTION = 8
+
+
 def largest_resolution(budget_bytes: int, bytes_for=sampling_bytes, **kwargs) -> int:
     """Largest N with bytes_for(N, **kwargs) <= budget_bytes."""
     lo, hi = 2, 2
@@ -109,9 +114,12 @@ def require_lattice_memory(resolution: int, dtype=np.complex64, chunk_bytes: int
     needed = need(resolution)
     if needed > budget:
         largest = largest_resolution(budget, need)
+        advice = (f"the largest resolution that fits is {largest}" if largest >= _SMALLEST_USEFUL_RESOLUTION
+                  else f"even the smallest useful resolution, {_SMALLEST_USEFUL_RESOLUTION}, does not fit: "
+                       "this machine has too little free memory now")
         raise MemoryLimitError(
             f"a {resolution}^3 {what} needs about {needed / GIB:.1f} GiB but only "
-            f"{budget / GIB:.1f} GiB can be used; the largest resolution that fits is {largest}")
+            f"{budget / GIB:.1f} GiB can be used; {advice}")
 
 
 def require_bytes(needed_bytes: int, what: str) -> None:

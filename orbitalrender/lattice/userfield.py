@@ -157,8 +157,10 @@ def load_field(path: str | os.PathLike, spacing_a0: float | Sequence[float] | No
     """
     p = Path(path)
     where = str(p)
-    if not p.is_file():
+    if not p.exists():
         raise FileNotFoundError(f"{where}: no such file")
+    if not p.is_file():
+        raise ValueError(f"{where}: not a regular file (a field must be an .npy or .npz file)")
     suffix = p.suffix.lower()
     readers = {".npy": _read_npy, ".npz": _read_npz}
     if suffix not in readers:

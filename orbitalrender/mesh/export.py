@@ -13,7 +13,6 @@ Euler characteristics are unchanged, volumes scale by factor^3.
 
 from __future__ import annotations
 
-import math
 import os
 from collections.abc import Callable, Sequence
 from pathlib import Path
@@ -24,6 +23,7 @@ import trimesh
 from ..atomic import atomic_path
 from ..colormap import PHASE_SCHEMES, psi_to_rgb
 from ..errors import UserInputError
+from ..state.limits import SIZE_MM_RANGE
 from ..state.phase import sign_rotation
 from ..state.units import a0_to
 from ..surface.model import Surface
@@ -119,7 +119,12 @@ def check_size_mm(size_mm: float) -> float:
     >>> check_size_mm(60)
     60.0
     """
-    return _positive(size_mm, "the printed size", "millimetres")
+    size_mm = _positive(size_mm, "the printed size", "millimetres")
+    lo, hi = SIZE_MM_RANGE  # (sizes outside once overflowed or divided by zero downstream)
+    if not lo <= size_mm <= hi:
+        raise UserInputError(f"the printed size must be {lo:g} to {hi:g} millimetres (no printer makes "
+                             f"a smaller or larger object), got {size_mm:g}")
+    return size_mm
 
 
 def check_mm_per_a0(mm_per_a0: float) -> float:

@@ -8,10 +8,12 @@ everywhere.
 from __future__ import annotations
 
 import os
+import re
 from pathlib import Path
 
 import numpy as np
 
+from ..atomic import output_set, retire_siblings
 from ..errors import UserInputError
 from ..lattice.grid import Lattice
 from ..surface.model import Surface
@@ -38,6 +40,13 @@ def sibling_path(path: str | os.PathLike, name: str) -> Path:
     """
     path = Path(path)
     return path.with_name(f"{path.stem}_{name}{path.suffix}")
+
+
+def _family_pattern(path: Path) -> str:
+    """The names of every file that one mesh export to `path` can write: FILE.EXT itself and
+    its siblings FILE_partK.EXT, FILE_bandK.EXT, FILE_positive.EXT and FILE_negative.EXT."""
+    stem, suffix = re.escape(path.stem), re.escape(path.suffix)
+    return rf"{stem}(_(part\d+|band\d+|positive|negative))?{suffix}"
 
 
 def _mean_phase(mesh) -> float:
@@ -83,6 +92,13 @@ def export_mesh(surface: Surface, path: str | os.PathLike, *, units: str = "a0",
     lattice : Lattice, optional
         The lattice the surface came from; needed for ``split="phase"``.
 
+    Notes
+    -----
+    The files of one export are replaced together (:func:`orbitalrender.atomic.output_set`):
+    on a failure the earlier set is kept; after success, files of the same set from an
+    earlier export that this one did not write (``FILE_part3.stl`` when there are now two
+    parts, body files of another split, FILE.EXT itself after ``parts``) are removed.
+
     Returns
     -------
     dict
@@ -117,6 +133,16 @@ def export_mesh(surface: Surface, path: str | os.PathLike, *, units: str = "a0",
                              "combined with a printable model or parts")
     if split == "phase" and lattice is None:
         raise UserInputError("a phase split needs the lattice the surface came from")
+    with output_set():
+        retire_siblings(path, _family_pattern(path))
+        return _export(surface, path, suffix, factor, unit, size_mm, phase_map, printable, parts,
+                       split, bands, separate, lattice)
+
+
+def _export(surface: Surface, path: Path, suffix: str, factor: float, unit: str,
+            size_mm: float | None, phase_map: str, printable: PrintOptions | None, parts: bool,
+            split: str | None, bands: int, separate: bool, lattice: Lattice | None) -> dict:
+    """The writing half of :func:`export_mesh`, inside its output set."""
     mesh = surface_mesh(surface, factor, phase_map)
     label = surface.state.label if surface.state is not None else "user field"
     comment = f"{label}; F = {surface.fraction_requested:g}; units {unit}"

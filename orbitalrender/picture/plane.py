@@ -122,6 +122,7 @@ def plane(spec: str | Sequence[float], offset_a0: float = 0.0) -> Plane:
     n = np.asarray(spec, dtype=float)
     if n.shape != (3,) or not np.all(np.isfinite(n)):
         raise ValueError(f"a plane normal needs three finite numbers, got {spec!r}")
+    n = n / float(np.max(np.abs(n))) if np.any(n) else n  # scaled first: 1e300 squared overflows
     length = float(np.linalg.norm(n))
     if length == 0.0:
         raise ValueError("a plane normal cannot be the zero vector")

@@ -31,12 +31,12 @@ import numpy as np
 from matplotlib.lines import Line2D
 
 from ..state.hydrogen import radial_function
+from ..state.limits import check_fraction
 from ..state.model import State
 from ..state.notation import conditions_label, pretty_label
 from ..state.properties import most_probable_radius, radial_node_radii, shell_of
 from ..state.radial import radial_cumulative, radius_holding
 from ..state.units import a0_to, unit_label
-from ..surface.level import check_fraction
 from .output import check_text_size
 
 __all__ = [

@@ -25,6 +25,8 @@ import math
 
 import numpy as np
 
+from .limits import check_n
+
 __all__ = [
     "check_quantum_numbers",
     "radial_function",
@@ -34,12 +36,14 @@ __all__ = [
 
 
 def check_quantum_numbers(n: int, l: int, m: int) -> None:
-    """Raise ``ValueError`` unless ``n >= 1``, ``0 <= l < n`` and ``|m| <= l``."""
+    """Raise ``ValueError`` unless ``1 <= n <= N_MAX`` (:mod:`orbitalrender.state.limits`),
+    ``0 <= l < n`` and ``|m| <= l``."""
     for name, value in (("n", n), ("l", l), ("m", m)):
         if int(value) != value:
             raise ValueError(f"{name} must be an integer, got {value!r}")
     if n < 1:
         raise ValueError(f"n must be >= 1, got n={n}")
+    check_n(n)
     if not 0 <= l < n:
         raise ValueError(f"l must satisfy 0 <= l < n, got n={n}, l={l}")
     if abs(m) > l:

@@ -27,7 +27,9 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
+from ..errors import UserInputError
 from .hydrogen import check_quantum_numbers, psi_nlm_xyz
+from .limits import check_centre, check_reduced_mass_ratio, check_z
 from .quadrature import integrate, space_grid
 
 __all__ = [
@@ -65,8 +67,11 @@ class Term:
 
     def __post_init__(self) -> None:
         check_quantum_numbers(self.n, self.l, self.m)
-        object.__setattr__(self, "coefficient", complex(self.coefficient))
-        object.__setattr__(self, "centre_a0", tuple(float(c) for c in self.centre_a0))
+        c = complex(self.coefficient)
+        if not (math.isfinite(c.real) and math.isfinite(c.imag)):
+            raise UserInputError(f"a coefficient must be a finite number, got {c}")
+        object.__setattr__(self, "coefficient", c)
+        object.__setattr__(self, "centre_a0", check_centre(self.centre_a0))
 
 
 @dataclass(frozen=True)
@@ -96,10 +101,8 @@ class State:
     def __post_init__(self) -> None:
         if not self.terms:
             raise ValueError("a state needs at least one term")
-        if not (self.Z > 0 and math.isfinite(self.Z)):
-            raise ValueError(f"Z must be a positive number, got {self.Z}")
-        if not (self.reduced_mass_ratio > 0 and math.isfinite(self.reduced_mass_ratio)):
-            raise ValueError(f"the reduced mass ratio must be positive, got {self.reduced_mass_ratio}")
+        check_z(self.Z)
+        check_reduced_mass_ratio(self.reduced_mass_ratio)
         if not math.isfinite(self.time_au):
             raise ValueError(f"time must be finite, got {self.time_au}")
 
@@ -200,11 +203,14 @@ def _overlap_matrix(terms: Sequence[Term], Z: float, mu: float) -> np.ndarray:
 def _normalised(terms: Sequence[Term], Z: float, mu: float, time_au: float, label: str) -> State:
     terms = tuple(terms)
     c = np.array([t.coefficient for t in terms])
-    norm2 = float(np.real(np.conj(c) @ _overlap_matrix(terms, Z, mu) @ c))
     largest = float(np.max(np.abs(c))) if len(c) else 0.0
-    if not largest or norm2 <= 1e-12 * largest**2:
+    if not largest:
         raise ValueError("the superposition has zero norm: its coefficients cancel")
-    scale = 1.0 / math.sqrt(norm2)
+    c = c / largest  # so that the squares of huge or tiny coefficients neither overflow nor underflow
+    norm2 = float(np.real(np.conj(c) @ _overlap_matrix(terms, Z, mu) @ c))
+    if norm2 <= 1e-12:
+        raise ValueError("the superposition has zero norm: its coefficients cancel")
+    scale = 1.0 / (largest * math.sqrt(norm2))
     return State(tuple(replace(t, coefficient=t.coefficient * scale) for t in terms),
                  Z=Z, reduced_mass_ratio=mu, time_au=time_au, label=label)
 

@@ -29,6 +29,7 @@ import re
 from dataclasses import dataclass
 
 from .hybrid import HYBRID_SETS, hybrid_member, hybrid_members, parse_hybrid
+from .limits import check_z
 from .model import State, eigenstate, real_orbital, superpose
 
 __all__ = ["REAL_LABELS", "hybrid_set_size", "parse_state", "parse_states", "pretty_label",
@@ -258,8 +259,7 @@ def parse_state(text: str, Z: float = 1.0, reduced_mass_ratio: float = 1.0,
     compact = re.sub(r"\s+", "", text)
     if not compact:
         raise StateSyntaxError("STATE is empty")
-    if Z <= 0:
-        raise ValueError(f"Z must be positive, got {Z}")
+    check_z(Z)
     cur = _Cursor(compact)
     parts: list[tuple[complex, State]] = []
     sign = -1.0 if cur.take("-") else 1.0

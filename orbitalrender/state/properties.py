@@ -1,9 +1,12 @@
 """Derived quantities of a state: energy, nodes, radial expectation values and radii.
 
 For a state whose terms all share n and l and sit on one centre (an eigenstate
-|n l m> or a real orbital) the radial quantities are those of R_nl; they are
-computed numerically here (quadrature, root bracketing, maximisation) so that the
-tests can hold them against the closed forms of the handbooks.  For other
+|n l m> or a real orbital) the radial quantities are those of R_nl: <r>, <r^2> and
+<1/r> from their closed forms (:func:`closed_form_moment`, Bethe and Salpeter), the
+rest numerically (quadrature in sqrt(rho), root bracketing, maximisation), with every
+factor that could overflow for large n combined in logarithms, for 1 <= n <= N_MAX
+(:mod:`orbitalrender.state.limits`).  :func:`radial_moment` computes any moment by
+quadrature, so that the tests can hold it against the closed forms.  For other
 single-centre superpositions the expectation values come from the Becke
 quadrature of :mod:`orbitalrender.state.quadrature`; for states on several
 centres the quantities measured from "the" nucleus are not defined and are
@@ -20,7 +23,6 @@ from dataclasses import asdict, dataclass
 
 import numpy as np
 from scipy.optimize import brentq
-from scipy.special import roots_laguerre
 
 from .hydrogen import _laguerre, _legendre_q, check_quantum_numbers, radial_function
 from .model import State, _real_terms, energy_hartree
@@ -33,6 +35,7 @@ __all__ = [
     "SuperpositionProperties",
     "REPORTED_FRACTION",
     "radial_moment",
+    "closed_form_moment",
     "radial_node_radii",
     "most_probable_radius",
     "nodal_cone_angles",
@@ -47,8 +50,13 @@ REPORTED_FRACTION = 0.9
 #: Sampling density of the root and maximum searches: points per unit of sqrt(rho) and
 #: per radian.  Neighbouring zeros of L_k^a(rho) are about pi / (2 sqrt(k)) apart in
 #: sqrt(rho) and neighbouring zeros of P_l^m(cos theta) about pi / l apart in theta, so
-#: 400 points per unit resolves them with a wide margin for n, l up to 100.
+#: 400 points per unit resolves them with a margin for n, l up to 200 (N_MAX): about 40
+#: points between neighbouring radial zeros and 6 between angular ones.
 _SAMPLES_PER_UNIT = 400
+#: Radial moments are integrated out to rho = 8 n + 100: beyond it R^2 r^(2+k) is below
+#: e^-100 of its largest value for every n (the density peaks below rho = 4 n).
+_MOMENT_RHO_END = (8.0, 100.0)
+_GL_X, _GL_W = np.polynomial.legendre.leggauss(24)
 
 
 def _rho_per_a0(n: int, Z: float, reduced_mass_ratio: float) -> float:
@@ -58,7 +66,7 @@ def _rho_per_a0(n: int, Z: float, reduced_mass_ratio: float) -> float:
 
 def radial_moment(n: int, l: int, power: int, Z: float = 1.0,
                   reduced_mass_ratio: float = 1.0) -> float:
-    """<r^power> of |n l m> in a0^power, by Gauss-Laguerre quadrature of R_nl^2 r^(2+power).
+    """<r^power> of |n l m> in a0^power, by quadrature of R_nl^2 r^(2+power) in sqrt(rho).
 
     Parameters
     ----------
@@ -75,9 +83,12 @@ def radial_moment(n: int, l: int, power: int, Z: float = 1.0,
 
     Notes
     -----
-    In rho = 2 Z r / (n a_mu), R_nl^2 r^(2+k) = exp(-rho) times a polynomial of degree
-    2n + k, which an m-point Gauss-Laguerre rule integrates exactly when 2m - 1 is at
-    least that degree; m = n + 4 is used.
+    The zeros of R_nl are nearly evenly spaced in s = sqrt(rho), rho = 2 Z r / (n a_mu),
+    about pi / (2 sqrt(n)) apart, so composite 24-point Gauss-Legendre panels of width
+    1 / sqrt(n) in s (less than one zero each) integrate the smooth integrand to
+    round-off, out to rho = 8 n + 100.  (A Gauss-Laguerre rule would be exact in exact
+    arithmetic, but its weights underflow beyond rho ~ 745, where the density of n > 150
+    still lives.)
 
     Examples
     --------
@@ -88,10 +99,42 @@ def radial_moment(n: int, l: int, power: int, Z: float = 1.0,
     if power < -2:
         raise ValueError(f"<r^k> diverges for k < -2, got k={power}")
     k = _rho_per_a0(n, Z, reduced_mass_ratio)
-    rho, w = roots_laguerre(n + 4)
-    r = rho / k
-    f = radial_function(n, l, r, Z, reduced_mass_ratio) ** 2 * r ** (2 + power) * np.exp(rho)
-    return float(np.sum(w * f) / k)
+    a, b = _MOMENT_RHO_END
+    s_end = math.sqrt(a * n + b)
+    panels = math.ceil(s_end * math.sqrt(n))
+    edges = np.linspace(0.0, s_end, panels + 1)
+    half = 0.5 * np.diff(edges)
+    s = (0.5 * (edges[1:] + edges[:-1])[:, None] + half[:, None] * _GL_X).ravel()
+    w = (half[:, None] * _GL_W).ravel()
+    r = s * s / k
+    f = radial_function(n, l, r, Z, reduced_mass_ratio) ** 2 * r ** (2 + power) * (2.0 * s / k)
+    return float(np.sum(w * f))
+
+
+def closed_form_moment(n: int, l: int, power: int, Z: float = 1.0,
+                       reduced_mass_ratio: float = 1.0) -> float:
+    """<r^power> of |n l m> for power 1, 2 or -1, in a0^power, from the closed forms.
+
+    Notes
+    -----
+    With a = a0 m_e / mu (Bethe and Salpeter, eq. 3.26):
+    <r> = a (3 n^2 - l (l + 1)) / (2 Z),  <r^2> = a^2 n^2 (5 n^2 + 1 - 3 l (l + 1)) / (2 Z^2),
+    <1/r> = Z / (a n^2).
+
+    Examples
+    --------
+    >>> closed_form_moment(2, 1, 1)  # <r> of 2p is 5 a0
+    5.0
+    """
+    check_quantum_numbers(n, l, 0)
+    a = 1.0 / reduced_mass_ratio
+    if power == 1:
+        return a * (3 * n * n - l * (l + 1)) / (2.0 * Z)
+    if power == 2:
+        return a * a * n * n * (5 * n * n + 1 - 3 * l * (l + 1)) / (2.0 * Z * Z)
+    if power == -1:
+        return Z / (a * n * n)
+    raise ValueError(f"a closed form is given for powers 1, 2 and -1, got {power}")
 
 
 def _sqrt_rho_grid(n: int, Z: float, reduced_mass_ratio: float) -> np.ndarray:
@@ -110,7 +153,8 @@ def _sign_change_roots(f, grid: np.ndarray) -> list[float]:
     plus grid points where f is exactly zero."""
     values = f(grid)
     roots = [float(g) for g, v in zip(grid, values) if v == 0.0]
-    change = np.flatnonzero(values[:-1] * values[1:] < 0)
+    sign = np.sign(values)  # (the values themselves may be too large to multiply)
+    change = np.flatnonzero(sign[:-1] * sign[1:] < 0)
     scale = float(np.max(np.abs(grid)))
     for i in change:
         roots.append(brentq(lambda t: float(f(t)), grid[i], grid[i + 1],
@@ -127,7 +171,11 @@ def radial_node_radii(n: int, l: int, Z: float = 1.0, reduced_mass_ratio: float 
     [2.0]
     """
     check_quantum_numbers(n, l, 0)
-    roots = _sign_change_roots(lambda r: radial_function(n, l, r, Z, reduced_mass_ratio),
+    # R_nl has the sign of L_{n-l-1}^(2l+1)(rho) for r > 0; the polynomial alone does not
+    # underflow near the nucleus as rho^l e^(-rho/2) does for large l (an underflowed zero
+    # would read as a node)
+    k = _rho_per_a0(n, Z, reduced_mass_ratio)
+    roots = _sign_change_roots(lambda r: _laguerre(n - l - 1, 2 * l + 1, k * np.asarray(r, float)),
                                _sqrt_rho_grid(n, Z, reduced_mass_ratio))
     if len(roots) != n - l - 1:
         raise ArithmeticError(f"found {len(roots)} radial nodes of ({n},{l}), expected {n - l - 1}")
@@ -324,9 +372,9 @@ def eigen_properties(n: int, l: int, m: int | None = 0, Z: float = 1.0,
         radial_nodes=n - l - 1, angular_nodes=l,
         radial_node_radii_a0=radial_node_radii(n, l, Z, reduced_mass_ratio),
         nodal_cone_angles_deg=cones, nodal_plane_azimuths_deg=planes,
-        mean_radius_a0=radial_moment(n, l, 1, Z, reduced_mass_ratio),
-        mean_square_radius_a0_2=radial_moment(n, l, 2, Z, reduced_mass_ratio),
-        mean_inverse_radius_per_a0=radial_moment(n, l, -1, Z, reduced_mass_ratio),
+        mean_radius_a0=closed_form_moment(n, l, 1, Z, reduced_mass_ratio),
+        mean_square_radius_a0_2=closed_form_moment(n, l, 2, Z, reduced_mass_ratio),
+        mean_inverse_radius_per_a0=closed_form_moment(n, l, -1, Z, reduced_mass_ratio),
         most_probable_radius_a0=most_probable_radius(n, l, Z, reduced_mass_ratio),
         radius_90_percent_a0=radius_holding(n, l, REPORTED_FRACTION, Z, reduced_mass_ratio),
     )

@@ -18,6 +18,10 @@ from .hydrogen import check_quantum_numbers, radial_function
 __all__ = ["radial_cumulative", "radius_holding"]
 
 _PANEL_RHO = 2.0
+#: Doublings of the search radius from n^2 a_mu / Z (rho = 2n): after 10, rho = 2048 n, where
+#: the e^-rho tail is far below the smallest double, and the quadrature still has only
+#: 1024 n panels.
+_MAX_DOUBLINGS = 10
 _GL_X, _GL_W = np.polynomial.legendre.leggauss(24)
 
 
@@ -88,7 +92,12 @@ def radius_holding(n: int, l: int, fraction: float, Z: float = 1.0,
         raise ValueError(f"fraction must lie in (0, 1), got {fraction}")
     scale = n * n / (Z * reduced_mass_ratio)
     hi = scale
-    while radial_cumulative(n, l, hi, Z, reduced_mass_ratio) < fraction:
+    for _ in range(_MAX_DOUBLINGS):
+        if radial_cumulative(n, l, hi, Z, reduced_mass_ratio) >= fraction:
+            break
         hi *= 2.0
+    else:
+        raise ValueError(f"no radius holds a fraction {fraction!r} of the ({n},{l}) probability "
+                         "within the precision of the radial quadrature (use a smaller fraction)")
     return float(brentq(lambda R: radial_cumulative(n, l, R, Z, reduced_mass_ratio) - fraction,
                         0.0, hi, xtol=1e-13 * scale, rtol=1e-13))

@@ -10,6 +10,8 @@ import math
 
 from scipy.constants import physical_constants as _pc
 
+from .limits import check_nucleus_mass_ratio
+
 __all__ = [
     "HARTREE_EV",
     "BOHR_RADIUS_M",
@@ -86,7 +88,7 @@ def nucleus_reduced_mass_ratio(name_or_ratio: str | float) -> float:
             raise ValueError(
                 f"unknown nucleus {name_or_ratio!r}: use one of "
                 f"{', '.join(NUCLEUS_PRESETS)} or a nucleus-to-electron mass ratio") from None
-    return reduced_mass_ratio(1.0, float(name_or_ratio))
+    return reduced_mass_ratio(1.0, check_nucleus_mass_ratio(name_or_ratio))
 
 
 def femtoseconds_to_au(t_fs: float) -> float:

@@ -37,11 +37,13 @@ from ..lattice.grid import Box, Lattice
 from ..lattice.memory import require_lattice_and_surface_memory, require_surface_memory
 from ..lattice.sampler import check_resolution, sample
 from ..state.hydrogen import radial_function
+from ..state.limits import check_fraction
 from ..state.model import State
 from ..state.phase import is_real
-from .level import LevelResult, check_fraction, level_for_fraction
+from .level import LevelResult, level_for_fraction
 from .model import Surface
 from .topology import volume_spread
+from .resolution import warn_unresolved_nodes
 
 __all__ = ["extract_surface", "surface_at_level", "surface_box", "vertex_normals"]
 
@@ -268,7 +270,16 @@ def surface_at_level(lattice: Lattice, level: LevelResult) -> Surface:
         reaches the edge of the lattice (the surface would be cut open by the box).
     MemoryLimitError
         If the work arrays of this step would not fit in the memory free now.
+
+    Warns
+    -----
+    LatticeResolutionWarning
+        If the lattice step is coarser than the state's radial node spacing inside the
+        surface (:mod:`orbitalrender.surface.resolution`).
     """
+    if lattice.state is not None:
+        warn_unresolved_nodes(lattice.state, level.fraction_requested, lattice.spacing_a0,
+                              lattice.values.shape)
     require_surface_memory(lattice.shape, lattice.values.dtype)
     amplitude = math.sqrt(level.level)
     field, signed = _signed_field(lattice, amplitude)

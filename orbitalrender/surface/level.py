@@ -35,11 +35,12 @@ from scipy.special import roots_legendre
 from ..lattice.grid import Lattice
 from ..lattice.userfield import check_field_values
 from ..state.hydrogen import radial_function, spherical_harmonic_xyz
+from ..state.limits import check_fraction
 from ..state.model import State
 from ..state.quadrature import space_grid
 from ..state.radial import radius_holding
 
-__all__ = ["LevelResult", "level_for_fraction", "check_fraction", "METHODS"]
+__all__ = ["LevelResult", "level_for_fraction", "METHODS"]
 
 METHODS = ("auto", "radial-angular", "polar-grid", "space-grid")
 
@@ -79,6 +80,14 @@ _HIST_BINS = 4096
 #: can reach in practice; they are still counted in the total).
 _HIST_DECADES = 30
 _CHUNK = 1 << 20
+#: Widenings of a level bracket before the search gives up: 16 steps of e^-40 reach levels
+#: e^-720 below the top, where exp() underflows (about e^-745) and nothing lower exists.
+_MAX_WIDENINGS = 16
+
+
+def _unresolved(fraction: float, enclosed: float) -> ValueError:
+    return ValueError(f"the surface enclosing F = {fraction!r} cannot be resolved: the quadrature "
+                      f"holds at most {enclosed:.12g} of the probability at any level (use a smaller F)")
 
 
 @dataclass(frozen=True)
@@ -104,14 +113,6 @@ class LevelResult:
     fraction_enclosed: float
     fraction_error: float | None
     method: str
-
-
-def check_fraction(fraction: float) -> float:
-    """Return `fraction` as float, or raise ValueError unless 0 < F < 1."""
-    f = float(fraction)
-    if not 0.0 < f < 1.0:
-        raise ValueError(f"the enclosed fraction must lie strictly between 0 and 1, got {fraction}")
-    return f
 
 
 # -- helpers shared by the rules --------------------------------------------------------
@@ -223,8 +224,12 @@ def _radial_angular(state: State, fraction: float) -> tuple[float, float]:
     enclosed, top = _factorised_enclosed(state)
     # bisect in log(level): P falls from ~1 at tiny levels to 0 at the maximum density
     lo = math.log(top) - 80.0
-    while enclosed(math.exp(lo)) < fraction:
+    for _ in range(_MAX_WIDENINGS):
+        if enclosed(math.exp(lo)) >= fraction:
+            break
         lo -= 40.0
+    else:
+        raise _unresolved(fraction, enclosed(math.exp(lo)))
     log_t = brentq(lambda s: enclosed(math.exp(s)) - fraction, lo, math.log(top),
                    xtol=1e-13, rtol=1e-14)
     level = math.exp(log_t)
@@ -274,11 +279,18 @@ def _lines_level(lines: np.ndarray, mass: np.ndarray, fraction: float) -> tuple[
     sub = (Ellipsis, slice(None, None, _BRACKET_STRIDE))
     ls, ms, js = (np.ascontiguousarray(a[sub]) for a in (lines, mass, jump))
     scale = float(mass.sum()) / float(ms.sum())
+    floor = math.log(top) - 80.0
+    if scale * _smoothed_mass(ls, ms, js, math.exp(floor)) < fraction:
+        raise _unresolved(fraction, float(mass.sum()))
     log_c = brentq(lambda s: scale * _smoothed_mass(ls, ms, js, math.exp(s)) - fraction,
-                   math.log(top) - 80.0, math.log(top), xtol=1e-4)
+                   floor, math.log(top), xtol=1e-4)
     lo, hi = log_c - 0.05, min(log_c + 0.05, math.log(top))
-    while _smoothed_mass(lines, mass, jump, math.exp(lo)) < fraction:
+    for _ in range(_MAX_WIDENINGS * 80):  # steps of 0.5 down to the same floor as above
+        if _smoothed_mass(lines, mass, jump, math.exp(lo)) >= fraction:
+            break
         lo -= 0.5
+    else:
+        raise _unresolved(fraction, float(mass.sum()))
     while hi < math.log(top) and _smoothed_mass(lines, mass, jump, math.exp(hi)) > fraction:
         hi = min(hi + 0.5, math.log(top))
     t_lo, t_hi = math.exp(lo), math.exp(hi)
