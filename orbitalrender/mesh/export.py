@@ -13,6 +13,7 @@ Euler characteristics are unchanged, volumes scale by factor^3.
 
 from __future__ import annotations
 
+import math
 import os
 from collections.abc import Callable, Sequence
 from pathlib import Path
@@ -112,14 +113,14 @@ def _positive(value: float, what: str, unit: str) -> float:
 
 
 def check_size_mm(size_mm: float) -> float:
-    """`size_mm` as a float, or UserInputError if it is not a positive, finite length.
+    """`size_mm` as a float, or UserInputError if it is not a length in SIZE_MM_RANGE (mm).
 
     Examples
     --------
     >>> check_size_mm(60)
     60.0
     """
-    size_mm = _positive(size_mm, "the printed size", "millimetres")
+    size_mm = float(size_mm)
     lo, hi = SIZE_MM_RANGE  # (sizes outside once overflowed or divided by zero downstream)
     if not lo <= size_mm <= hi:
         raise UserInputError(f"the printed size must be {lo:g} to {hi:g} millimetres (no printer makes "

@@ -42,8 +42,8 @@ from ..state.model import State
 from ..state.phase import is_real
 from .level import LevelResult, level_for_fraction
 from .model import Surface
-from .topology import volume_spread
 from .resolution import warn_unresolved_nodes
+from .topology import volume_spread
 
 __all__ = ["extract_surface", "surface_at_level", "surface_box", "vertex_normals"]
 
