@@ -8,6 +8,10 @@ signal.signal(signal.SIGINT, quit_on_interrupt)  # before anything heavy is impo
 
 import sys  # noqa: E402
 
-from .cli import main  # noqa: E402
+try:
+    from .cli import main
 
-sys.exit(main())
+    status = main()
+except KeyboardInterrupt:  # one that escaped the command line's own handling: still one line, 130
+    quit_on_interrupt()
+sys.exit(status)

@@ -120,7 +120,11 @@ def test_n20_surface_is_a_closed_ring_at_the_right_level():
 
 
 def test_n20_with_radial_nodes_gives_a_closed_surface_at_modest_resolution():
-    s = extract_surface(parse_state("20,2,0"), 0.5, 96)
+    # closed even where the lattice is too coarse for the nodal shells, and the user is told
+    from orbitalrender.surface.resolution import LatticeResolutionWarning
+
+    with pytest.warns(LatticeResolutionWarning, match="radial nodes of the \\(20,2\\) shell"):
+        s = extract_surface(parse_state("20,2,0"), 0.5, 96)
     assert watertight(s) and len(s.faces) > 0
 
 
