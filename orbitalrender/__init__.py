@@ -20,6 +20,32 @@ Examples
 __version__ = "0.1.0"
 
 import importlib
+import os
+
+
+def _numba_cache_dir() -> None:
+    """Point numba's on-disk kernel cache (``NUMBA_CACHE_DIR``, unless the user set it) at a
+    per-user folder, ``$XDG_CACHE_HOME/orbitalrender/numba`` (default ``~/.cache``).
+
+    Left to itself numba writes its cache beside the source files: inside an installed
+    package that leaves files pip does not know of, and an ``orbitalrender`` folder of cache
+    files alone that survives ``pip uninstall`` shadows a later editable install (the
+    import then finds an empty namespace package).  numba keys its entries by the source
+    file's path and time stamp, so installs in several environments share the folder
+    safely.  Nothing is changed when the folder cannot be made.
+    """
+    if "NUMBA_CACHE_DIR" in os.environ:
+        return
+    base = os.environ.get("XDG_CACHE_HOME") or os.path.join(os.path.expanduser("~"), ".cache")
+    folder = os.path.join(base, "orbitalrender", "numba")
+    try:
+        os.makedirs(folder, exist_ok=True)
+    except OSError:
+        return
+    os.environ["NUMBA_CACHE_DIR"] = folder
+
+
+_numba_cache_dir()  # before any module of this package imports numba
 
 #: Public name -> the module (below this package) that defines it.  The modules are
 #: imported on first use (PEP 562), so ``import orbitalrender`` and the light modules

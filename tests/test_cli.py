@@ -154,3 +154,25 @@ def test_an_interrupt_a_library_turned_into_another_error_is_still_an_interrupt(
     monkeypatch.undo()
     assert main(["describe", "1s", "--json"]) == 0  # the next call starts afresh
     capsys.readouterr()
+
+
+# -- numba's kernel cache ----------------------------------------------------------------
+def test_numba_kernels_are_cached_per_user_not_inside_the_package(tmp_path):
+    # A cache written beside the installed sources outlives `pip uninstall` as a folder of
+    # cache files alone, which then shadows an editable install of the same package.
+    env = {k: v for k, v in _ENV.items() if k != "NUMBA_CACHE_DIR"}
+    env["XDG_CACHE_HOME"] = str(tmp_path / "cache")
+    code = ("import os, orbitalrender as orb; "
+            "orb.sample(orb.eigenstate(2, 1, 0), resolution=12); print(os.environ['NUMBA_CACHE_DIR'])")
+    done = subprocess.run([sys.executable, "-c", code], env=env, cwd=tmp_path, capture_output=True,
+                          text=True, timeout=300)
+    assert done.returncode == 0, done.stderr
+    folder = Path(done.stdout.strip())
+    assert folder == tmp_path / "cache" / "orbitalrender" / "numba"
+    assert any(folder.rglob("*.nbi")), "no kernel index was written to the per-user cache"
+    # the user's own setting is kept
+    env["NUMBA_CACHE_DIR"] = str(tmp_path / "mine")
+    code = "import os, orbitalrender; print(os.environ['NUMBA_CACHE_DIR'])"
+    done = subprocess.run([sys.executable, "-c", code], env=env, cwd=tmp_path, capture_output=True,
+                          text=True, timeout=120)
+    assert done.stdout.strip() == str(tmp_path / "mine")
