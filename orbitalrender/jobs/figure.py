@@ -270,14 +270,10 @@ def figure_job(states: Sequence, options: FigureOptions, *,
 
 
 def _set_title(group) -> str:
-    """Title of a hybrid set drawn together: the set's name (members' labels without [k]), F,
-    and Z and the reduced mass where they are not the defaults, as :func:`surface_title` words them."""
+    """Title of a hybrid set drawn together: :func:`surface_title` of its first member with the
+    set's name (the members' label without [k])."""
     import re
 
-    from ..state.notation import conditions_label, pretty_label
+    from ..picture.compose import surface_title
 
-    state = group[0].state
-    parts = [pretty_label(re.sub(r"\[\d+\]$", "", state.label)), f"F = {group[0].fraction_requested:g}"]
-    if extra := conditions_label(state.Z, state.reduced_mass_ratio):
-        parts.append(extra)
-    return ", ".join(parts)
+    return surface_title(group[0], label=re.sub(r"\[\d+\]$", "", group[0].state.label))

@@ -105,13 +105,6 @@ def length_scale(vertices_a0: np.ndarray, units: str = "a0", size_mm: float | No
     return size_mm / extent, "mm"
 
 
-def _positive(value: float, what: str, unit: str) -> float:
-    value = float(value)
-    if not (value > 0 and math.isfinite(value)):
-        raise UserInputError(f"{what} must be a positive number of {unit}, got {value:g}")
-    return value
-
-
 def check_size_mm(size_mm: float) -> float:
     """`size_mm` as a float, or UserInputError if it is not a length in SIZE_MM_RANGE (mm).
 
@@ -136,7 +129,10 @@ def check_mm_per_a0(mm_per_a0: float) -> float:
     >>> check_mm_per_a0(2)
     2.0
     """
-    return _positive(mm_per_a0, "the scale", "millimetres per a0")
+    mm_per_a0 = float(mm_per_a0)
+    if not (mm_per_a0 > 0 and math.isfinite(mm_per_a0)):
+        raise UserInputError(f"the scale must be a positive number of millimetres per a0, got {mm_per_a0:g}")
+    return mm_per_a0
 
 
 def surface_mesh(surface: Surface, factor: float = 1.0, scheme: str = "uniform") -> trimesh.Trimesh:

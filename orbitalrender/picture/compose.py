@@ -301,9 +301,10 @@ def figure_3d(surfaces: Surface | Sequence[Surface], width_px: int = 900, height
     return fig, render
 
 
-def surface_title(surface: Surface) -> str:
+def surface_title(surface: Surface, *, label: str | None = None) -> str:
     """Title text: the state label (typeset, :func:`pretty_label`), the enclosed fraction F,
-    and Z and the reduced mass where they are not 1 (:func:`conditions_label`).
+    and Z and the reduced mass where they are not 1 (:func:`conditions_label`); `label`
+    replaces the state's label (e.g. a hybrid set's name for all its members).
 
     Examples
     --------
@@ -315,7 +316,8 @@ def surface_title(surface: Surface) -> str:
     '3d$_{z^{2}}$, F = 0.9'
     """
     state = surface.state
-    parts = [pretty_label(state.label) if state is not None else "user field"]
+    label = label if label is not None else state.label if state is not None else None
+    parts = [pretty_label(label) if label is not None else "user field"]
     if surface.fraction_requested is not None:
         parts.append(f"F = {surface.fraction_requested:g}")
     if state is not None and (extra := conditions_label(state.Z, state.reduced_mass_ratio)):
