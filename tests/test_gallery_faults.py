@@ -102,18 +102,29 @@ def _temporaries(out: Path) -> list[Path]:
     return [p for p in out.rglob("*") if ".part" in p.name]
 
 
+# a three-centre state: its level needs the 3D quadrature, some seconds of work against
+# well under a second for each of the others, so it is still running when the others finish
+SLOW_FIFTH = FOUR_OUTPUTS + """
+[[outputs]]
+name = "e"
+kind = "figure"
+state = "1s@(0,0,0) + 1s@(2,0,0) + 1s@(0,2,0)"
+"""
+
+
 def test_a_worker_killed_once_costs_nothing_but_a_warning(tmp_path):
-    proc, out = _start(tmp_path)
-    first = proc.stderr.readline()  # the first finished task: the rest of the work is still to do
-    assert first.startswith("[1/"), first
-    (victim, *_) = _wait_for_workers(proc)
-    os.kill(victim, signal.SIGKILL)
+    proc, out = _start(tmp_path, SLOW_FIFTH)
+    first = proc.stderr.readline()  # a small task done: the slow one is still being computed
+    assert first.startswith("[1/") and "for e" not in first, first
+    victims = _wait_for_workers(proc, 2)
+    for victim in victims:  # all of them, so the worker busy with "e" is certainly among them
+        os.kill(victim, signal.SIGKILL)
     stdout, rest = proc.communicate(timeout=600)
     err = first + rest
     assert proc.returncode == 0, err
-    assert "made 4 of 4 outputs" in stdout
+    assert "made 5 of 5 outputs" in stdout
     assert "warning: a worker process ended unexpectedly" in err
-    assert all((out / f"{n}.png").is_file() for n in "abcd")
+    assert all((out / f"{n}.png").is_file() for n in "abcde")
     assert 'class="card failed"' not in (out / "index.html").read_text()
     assert _temporaries(out) == []
 

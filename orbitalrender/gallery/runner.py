@@ -440,6 +440,10 @@ def run_gallery(config: GalleryConfig | str | os.PathLike, out_dir: str | os.Pat
             raise
         if workers is not None:
             workers.close()
+            if workers.losses:  # a killed worker's temporaries: no worker of this run is left
+                clean_outputs()
+                if folder is not None:
+                    folder.clean_if_alone()
         for record, counts in made:
             stats.merge(counts)
             if record.error is None:
