@@ -53,6 +53,20 @@ def test_help_loads_no_heavy_library(command):
     assert not loaded & set(HEAVY), loaded & set(HEAVY)
 
 
+@pytest.mark.parametrize("suffix", [".ply", ".obj", ".stl"])
+def test_a_plain_mesh_loads_no_mesh_or_drawing_library(suffix, tmp_path):
+    # a plain export writes and checks its file with the package's own writers and readers
+    out = tmp_path / f"m{suffix}"
+    argv = ["orbitalrender", "mesh", "2pz", "--resolution", "24", "--size-mm", "30", "--out", str(out)]
+    code = ("import runpy, sys\n"
+            f"sys.argv = {argv!r}\n"
+            "try:\n    runpy.run_module('orbitalrender', run_name='__main__')\n"
+            "except SystemExit as exc:\n    assert not exc.code, exc.code")
+    loaded = _modules_after(code)
+    assert out.is_file()
+    assert not loaded & {"trimesh", "manifold3d", "matplotlib", "networkx"}
+
+
 def test_public_names_resolve_and_dir_lists_them():
     listed = dir(orbitalrender)
     for name in orbitalrender.__all__:

@@ -3,6 +3,7 @@ a refused file leaves the earlier one intact."""
 
 from __future__ import annotations
 
+import dataclasses
 import json
 import math
 from functools import cache
@@ -39,6 +40,15 @@ def _ball_radius_a0(fraction: float) -> float:
     return brentq(lambda x: 1 - math.exp(-2 * x) * (1 + 2 * x + 2 * x * x) - fraction, 1e-6, 50)
 
 
+def _trimesh_load(path) -> trimesh.Trimesh:
+    """The file as trimesh's reader sees it (independent of our writers and readers); the
+    three corners of each STL triangle merged into shared vertices, as slicers do."""
+    mesh = trimesh.load(path, process=False, force="mesh")
+    if path.suffix == ".stl":
+        mesh.merge_vertices()
+    return mesh
+
+
 @cache
 def _surface_1s():
     return extract_surface(eigenstate(1, 0, 0), FRACTION, resolution=64)
@@ -72,7 +82,8 @@ def test_size_mm_makes_a_1s_sphere_of_that_diameter(tmp_path):
     surface = _surface_1s()
     factor, unit = length_scale(surface.vertices_a0, size_mm=50.0)
     assert unit == "mm"
-    written = write_bodies(tmp_path / "ball.stl", [surface_mesh(surface, factor)])
+    write_bodies(tmp_path / "ball.stl", [surface_mesh(surface, factor)])
+    written = _trimesh_load(tmp_path / "ball.stl")
     radii = np.linalg.norm(written.vertices, axis=1)
     assert np.all(np.abs(2 * radii - 50.0) <= 0.5)
     assert written.volume == pytest.approx(4 / 3 * math.pi * 25.0**3, rel=0.01)
@@ -216,7 +227,8 @@ def test_report_from_the_surface_equals_trimesh_on_the_file(tmp_path, suffix):
     surface = extract_surface(parse_state("3dz2"), 0.8, resolution=40)
     factor, unit = length_scale(surface.vertices_a0, size_mm=30.0)
     path = tmp_path / f"d{suffix}"
-    written = write_bodies(path, [surface_mesh(surface, factor)])
+    write_bodies(path, [surface_mesh(surface, factor)])
+    written = _trimesh_load(path)
     report = surface_report(surface, factor, unit, size_mm=30.0)
     parts = face_components(written)
     assert report["components"] == len(parts) == 3
@@ -233,8 +245,7 @@ def test_a_file_that_reads_back_with_another_volume_is_refused(tmp_path, monkeyp
 
     def stretched(p, suffix):
         mesh = reload(p, suffix)
-        mesh.vertices = mesh.vertices * 1.001
-        return mesh
+        return dataclasses.replace(mesh, vertices=mesh.vertices * 1.001)
 
     monkeypatch.setattr(export, "_reload", stretched)
     with pytest.raises(OSError, match="read back enclosing"):

@@ -164,3 +164,37 @@ def test_3mf_gives_each_body_its_own_named_material(tmp_path):
     assert len(root.findall("m:build/m:item", ns)) == 2
     scene = trimesh.load(path, process=False)
     assert set(scene.geometry) == {"psi>0", "psi<0"}
+
+
+@pytest.mark.parametrize("suffix", [".ply", ".obj", ".stl"])
+def test_our_readers_see_what_trimesh_reads(tmp_path, suffix):
+    # Reference: trimesh's readers (trimesh.exchange.ply, .obj, .stl) on the same file; ours
+    # check every plain export before it replaces a file, so they must agree with them.
+    from orbitalrender.mesh.obj import read_obj
+    from orbitalrender.mesh.ply import read_ply
+    from orbitalrender.mesh.stl import read_stl
+
+    path = tmp_path / f"ring{suffix}"
+    write_bodies(path, [_mesh()], comment="2,1,1; units a0")
+    ours = {".ply": read_ply, ".obj": read_obj, ".stl": read_stl}[suffix](path.read_bytes())
+    theirs = trimesh.load(path, process=False, force="mesh")
+    np.testing.assert_array_equal(ours.faces, theirs.faces)
+    np.testing.assert_allclose(ours.vertices, theirs.vertices, rtol=0, atol=1e-6)
+    if suffix != ".stl":
+        np.testing.assert_array_equal(ours.rgba, theirs.visual.vertex_colors)
+    if suffix == ".ply":
+        raw = theirs.metadata["_ply_raw"]["vertex"]["data"]
+        np.testing.assert_allclose(ours.attributes["phase"], raw["phase"])
+
+
+@pytest.mark.parametrize("suffix, cut", [(".ply", 7), (".stl", 50)])
+def test_a_truncated_binary_file_is_refused_by_our_readers(tmp_path, suffix, cut):
+    # a file cut short (a full disk, a killed writer) must not pass the read-back check;
+    # a text OBJ cut at a line end still reads, and the face count of write_bodies refuses it
+    from orbitalrender.mesh.export import _reload
+
+    path = tmp_path / f"ring{suffix}"
+    write_bodies(path, [_mesh()])
+    path.write_bytes(path.read_bytes()[:-cut])
+    with pytest.raises(OSError):
+        _reload(path, suffix)

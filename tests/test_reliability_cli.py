@@ -61,7 +61,7 @@ QUICK = {
     "figure": (lambda t: ["figure", "2pz", "--resolution", "20", "--size", "240x160", "--supersample", "1",
                           "--out", t / "f.png"], "f.png", "orbitalrender.picture.compose.figure_3d"),
     "mesh": (lambda t: ["mesh", "2pz", "--fraction", "0.8", "--resolution", "20", "--out", t / "m.ply"],
-             "m.ply", "orbitalrender.mesh.pipeline.surface_mesh"),
+             "m.ply", "orbitalrender.mesh.pipeline.surface_arrays"),
     "section": (lambda t: ["section", "2pz", "--pixels", "32", "--out", t / "s.png"], "s.png",
                 "orbitalrender.picture.output.save_figure"),
     "radial": (lambda t: ["radial", "2pz", "--out", t / "r.png"], "r.png",

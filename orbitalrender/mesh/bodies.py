@@ -11,10 +11,7 @@ from collections.abc import Sequence
 import numpy as np
 import trimesh
 
-__all__ = ["SUPPORT_RGBA", "submesh", "face_components", "concatenate"]
-
-#: Colour of struts and bases (sRGB, 0-255): a neutral mid grey, so they read as "not the orbital".
-SUPPORT_RGBA = (150, 150, 150, 255)
+__all__ = ["submesh", "face_components", "concatenate"]
 
 
 def submesh(mesh: trimesh.Trimesh, face_index: np.ndarray) -> trimesh.Trimesh:

@@ -5,10 +5,13 @@ one module per format beside this one).  Coordinates are in a0 unless another
 length unit is asked for; ``size_mm`` instead scales the surface so that the
 largest side of its bounding box is that many millimetres (the unit printer
 slicers assume).  Every file is written through :func:`orbitalrender.atomic.atomic_path`
-and checked by reloading it with trimesh (vertex and face counts, enclosed volume) before
-it replaces an earlier file.  The report's figures of a file that holds the surface as it
-is (no print preparation) follow from the surface's own topology and the scale: counts and
-Euler characteristics are unchanged, volumes scale by factor^3.
+and checked by reading it back (vertex and face counts, enclosed volume) before it
+replaces an earlier file: PLY, OBJ and STL with this package's own readers, GLB and 3MF
+with trimesh's.  A plain export (no print preparation, no split) works on
+:class:`~orbitalrender.mesh.arrays.MeshArrays` and never imports trimesh.  The report's
+figures of a file that holds the surface as it is (no print preparation) follow from the
+surface's own topology and the scale: counts and Euler characteristics are unchanged,
+volumes scale by factor^3.
 """
 
 from __future__ import annotations
@@ -19,7 +22,6 @@ from collections.abc import Callable, Sequence
 from pathlib import Path
 
 import numpy as np
-import trimesh
 
 from ..atomic import atomic_path
 from ..colormap import PHASE_SCHEMES, psi_to_rgb
@@ -30,6 +32,7 @@ from ..state.units import a0_to
 from ..surface.model import Surface
 from ..surface.topology import Topology, mesh_topology, topology, volume_spread
 from . import glb, obj, ply, stl, threemf
+from .arrays import MeshArrays, as_arrays, as_trimesh, extent
 
 __all__ = [
     "MESH_SUFFIXES",
@@ -37,9 +40,11 @@ __all__ = [
     "check_size_mm",
     "check_mm_per_a0",
     "length_scale",
+    "surface_arrays",
     "surface_mesh",
     "encode_bodies",
     "write_bodies",
+    "file_mesh",
     "mesh_summary",
     "surface_report",
 ]
@@ -99,10 +104,10 @@ def length_scale(vertices_a0: np.ndarray, units: str = "a0", size_mm: float | No
         except ValueError as exc:
             raise UserInputError(str(exc)) from None
     size_mm = check_size_mm(size_mm)
-    extent = float(np.max(np.ptp(vertices_a0, axis=0))) if len(vertices_a0) else 0.0
-    if extent <= 0:
+    largest = float(np.max(extent(vertices_a0)))
+    if largest <= 0:
         raise UserInputError("the surface has no extent to scale")
-    return size_mm / extent, "mm"
+    return size_mm / largest, "mm"
 
 
 def check_size_mm(size_mm: float) -> float:
@@ -135,10 +140,10 @@ def check_mm_per_a0(mm_per_a0: float) -> float:
     return mm_per_a0
 
 
-def surface_mesh(surface: Surface, factor: float = 1.0, scheme: str = "uniform") -> trimesh.Trimesh:
-    """The surface as a trimesh mesh with coordinates times `factor`, phase colours
-    (``visual.vertex_colors``, RGBA uint8) and vertex attributes ``phase`` (rad) and
-    ``density`` (|psi|^2, a0^-3).
+def surface_arrays(surface: Surface, factor: float = 1.0, scheme: str = "uniform") -> MeshArrays:
+    """The surface as mesh arrays with coordinates times `factor`, phase colours (RGBA
+    uint8), the surface's normals (from the exact density gradient; a uniform scale leaves
+    them unchanged) and vertex attributes ``phase`` (rad) and ``density`` (|psi|^2, a0^-3).
 
     Before the ``"sign"`` map the global phase is removed by the one rule of
     :func:`orbitalrender.state.phase.sign_rotation` (a complex state is refused), so the
@@ -151,9 +156,9 @@ def surface_mesh(surface: Surface, factor: float = 1.0, scheme: str = "uniform")
     >>> v = np.array([[0, 0, 0], [1, 0, 0], [0, 1, 0], [0, 0, 1]], float)
     >>> f = np.array([[0, 2, 1], [0, 1, 3], [0, 3, 2], [1, 2, 3]])
     >>> s = Surface(v, f, v, np.ones(4, complex), 0.1, None, None, None, (2, 2, 2), (1, 1, 1))
-    >>> m = surface_mesh(s, factor=2.0)
-    >>> m.vertices.max(), m.visual.vertex_colors.shape
-    (np.float64(2.0), (4, 4))
+    >>> m = surface_arrays(s, factor=2.0)
+    >>> m.vertices.max(), m.rgba.shape, sorted(m.attributes)
+    (np.float64(2.0), (4, 4), ['density', 'phase'])
     """
     if scheme not in PHASE_SCHEMES:
         raise UserInputError(f"unknown phase colour map {scheme!r}: use one of {', '.join(PHASE_SCHEMES)}")
@@ -162,17 +167,30 @@ def surface_mesh(surface: Surface, factor: float = 1.0, scheme: str = "uniform")
     rgba = np.empty((len(rgb), 4), dtype=np.uint8)
     rgba[:, :3] = np.clip(np.round(rgb * 255.0), 0, 255)
     rgba[:, 3] = 255
-    # the surface's normals (from the exact density gradient) stand in for trimesh's
-    # face-averaged ones; a uniform scale leaves them unchanged
-    mesh = trimesh.Trimesh(np.asarray(surface.vertices_a0, float) * factor, surface.faces,
-                           vertex_normals=surface.normals, vertex_colors=rgba, process=False,
-                           validate=False)
-    mesh.vertex_attributes["phase"] = surface.phase.astype(np.float32)
-    mesh.vertex_attributes["density"] = (surface.magnitude ** 2).astype(np.float32)
-    return mesh
+    return MeshArrays(np.asarray(surface.vertices_a0, float) * factor, np.asarray(surface.faces, np.int64),
+                      rgba, np.asarray(surface.normals, float),
+                      {"phase": surface.phase.astype(np.float32),
+                       "density": (surface.magnitude ** 2).astype(np.float32)})
 
 
-def encode_bodies(bodies: Sequence[trimesh.Trimesh], suffix: str, names: Sequence[str] | None = None,
+def surface_mesh(surface: Surface, factor: float = 1.0, scheme: str = "uniform"):
+    """:func:`surface_arrays` as a trimesh mesh (``visual.vertex_colors``, ``vertex_normals``
+    and ``vertex_attributes`` ``phase`` and ``density``), for print preparation and splits.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from orbitalrender.surface.model import Surface
+    >>> v = np.array([[0, 0, 0], [1, 0, 0], [0, 1, 0], [0, 0, 1]], float)
+    >>> f = np.array([[0, 2, 1], [0, 1, 3], [0, 3, 2], [1, 2, 3]])
+    >>> s = Surface(v, f, v, np.ones(4, complex), 0.1, None, None, None, (2, 2, 2), (1, 1, 1))
+    >>> round(float(surface_mesh(s, factor=2.0).volume), 6)
+    1.333333
+    """
+    return as_trimesh(surface_arrays(surface, factor, scheme))
+
+
+def encode_bodies(bodies: Sequence[MeshArrays], suffix: str, names: Sequence[str] | None = None,
                   comment: str = "", units: str = "") -> bytes:
     """The file contents for `bodies` in the format of `suffix` (see :data:`MESH_SUFFIXES`)."""
     if suffix == ".glb":
@@ -186,30 +204,59 @@ def encode_bodies(bodies: Sequence[trimesh.Trimesh], suffix: str, names: Sequenc
     return stl.encode_stl(bodies, comment=comment)
 
 
-def _reload(path: Path, suffix: str) -> trimesh.Trimesh:
-    """The file read back by trimesh as one mesh (all bodies together)."""
+#: Formats read back by this package's readers; the others by trimesh's.
+_READERS = {".ply": ply.read_ply, ".obj": obj.read_obj, ".stl": stl.read_stl}
+
+
+def _reload(path: Path, suffix: str) -> MeshArrays:
+    """The file read back as one mesh (all bodies together)."""
+    if suffix in _READERS:
+        return _READERS[suffix](path.read_bytes())
+    import trimesh
+
     loaded = trimesh.load(path, file_type=suffix[1:], process=False, force="mesh")
     if not isinstance(loaded, trimesh.Trimesh):
         raise OSError(f"{path} did not read back as a triangle mesh")
-    return loaded
+    return MeshArrays(np.asarray(loaded.vertices, float), np.asarray(loaded.faces, np.int64))
 
 
-def write_bodies(path: str | os.PathLike, bodies: Sequence[trimesh.Trimesh],
-                 names: Sequence[str] | None = None, comment: str = "", units: str = "",
-                 check: Callable[[trimesh.Trimesh], None] | None = None,
-                 verify: bool = True) -> trimesh.Trimesh | None:
+def write_bodies(path: str | os.PathLike, bodies: Sequence, names: Sequence[str] | None = None,
+                 comment: str = "", units: str = "", check: Callable | None = None,
+                 verify: bool = True) -> MeshArrays | None:
     """Write `bodies` to `path` (format from the suffix) and return the file as read back.
 
-    The file is written to a temporary name beside `path` and reloaded with trimesh;
-    its vertex and face counts must match what was written (STL stores each triangle's
-    corners separately, so there the reloaded mesh is merged first) and `check`, if
-    given, may raise to refuse it.  Only then does it replace `path`: on any failure an
-    earlier file at `path` is left as it was.  ``verify=False`` skips the reload (and
-    returns None); it is refused together with a `check`.
+    Parameters
+    ----------
+    path : path-like
+        The file; its suffix gives the format.
+    bodies : sequence of MeshArrays or trimesh.Trimesh
+        What to write (trimesh meshes are taken through
+        :func:`~orbitalrender.mesh.arrays.as_arrays`).
+    names, comment, units : optional
+        Body names (OBJ, GLB, 3MF), the header comment and the unit recorded in the file.
+    check : callable, optional
+        Called with the file as read back (a trimesh mesh, STL corners merged); may raise
+        to refuse the file.
+    verify : bool
+        Read the file back (default).  ``verify=False`` skips it and returns None; it is
+        refused together with a `check`.
+
+    Returns
+    -------
+    MeshArrays or None
+        Vertices and faces as read back from the file (for STL, three corners per face).
+
+    Notes
+    -----
+    The file is written to a temporary name beside `path` and read back; its vertex and
+    face counts must match what was written (STL stores each triangle's corners
+    separately, so there only faces are counted) and so must its enclosed volume.  Only
+    then does it replace `path`: on any failure an earlier file at `path` is left as it was.
     """
     suffix = mesh_suffix(path)
     if check is not None and not verify:
         raise ValueError("a check needs the file read back (verify=True)")
+    bodies = [b if isinstance(b, MeshArrays) else as_arrays(b) for b in bodies]
     data = encode_bodies(bodies, suffix, names=names, comment=comment, units=units)
     vertices = sum(len(b.vertices) for b in bodies)
     faces = sum(len(b.faces) for b in bodies)
@@ -218,8 +265,6 @@ def write_bodies(path: str | os.PathLike, bodies: Sequence[trimesh.Trimesh],
         if not verify:
             return None
         loaded = _reload(tmp, suffix)
-        if suffix == ".stl":
-            loaded.merge_vertices()
         if len(loaded.faces) != faces or (suffix != ".stl" and len(loaded.vertices) != vertices):
             raise OSError(f"{path} read back with {len(loaded.vertices)} vertices and "
                           f"{len(loaded.faces)} faces instead of {vertices} and {faces}")
@@ -230,8 +275,17 @@ def write_bodies(path: str | os.PathLike, bodies: Sequence[trimesh.Trimesh],
             raise OSError(f"{path} read back enclosing {volume:.9g} instead of {expected:.9g} "
                           "cubic units")
         if check is not None:
-            check(loaded)
+            check(file_mesh(loaded, suffix))
     return loaded
+
+
+def file_mesh(loaded: MeshArrays, suffix: str):
+    """A mesh read back by :func:`write_bodies` as a trimesh mesh, the corners of an STL
+    merged into shared vertices (as slicers do)."""
+    mesh = as_trimesh(MeshArrays(loaded.vertices, loaded.faces))
+    if suffix == ".stl":
+        mesh.merge_vertices()
+    return mesh
 
 
 def mesh_summary(figures: Topology, factor: float, vertices: int, faces: int) -> dict:
@@ -254,7 +308,7 @@ def mesh_summary(figures: Topology, factor: float, vertices: int, faces: int) ->
 
 
 def surface_report(surface: Surface, factor: float, unit: str, size_mm: float | None = None,
-                   written: trimesh.Trimesh | None = None) -> dict:
+                   written=None) -> dict:
     """The JSON-ready report of an export: the surface's provenance and the written mesh's
     geometry (top level), the surface's own topology (``surface``, in a0, from
     :func:`orbitalrender.surface.topology.topology`).
@@ -266,18 +320,20 @@ def surface_report(surface: Surface, factor: float, unit: str, size_mm: float | 
     the sides of the whole surface's own bounding box at that scale; and
     ``material_cm3``, the solid volume of the written model.
 
-    `written` is the mesh written when it is not the surface itself scaled by `factor`
-    (a printable model with struts and base); its figures are then computed from it.
+    `written` is the mesh written (trimesh mesh or MeshArrays) when it is not the surface
+    itself scaled by `factor` (a printable model with struts and base); its figures are
+    then computed from it.
     Otherwise they follow from the surface's topology, computed once.
     """
     figures = topology(surface)
+    extent_a0 = extent(surface.vertices_a0)
     if written is None:
         summary = mesh_summary(figures, factor, len(surface.vertices_a0), len(surface.faces))
-        extent_units = np.ptp(surface.vertices_a0, axis=0) * factor
+        extent_units = extent_a0 * factor
     else:
         model = mesh_topology(np.asarray(written.vertices) / factor, written.faces)
         summary = mesh_summary(model, factor, len(written.vertices), len(written.faces))
-        extent_units = np.ptp(written.vertices, axis=0)
+        extent_units = extent(written.vertices)
     report = {
         "state": surface.state.label if surface.state is not None else None,
         "fraction_requested": surface.fraction_requested,
@@ -288,7 +344,7 @@ def surface_report(surface: Surface, factor: float, unit: str, size_mm: float | 
         "spacing_a0": list(surface.spacing_a0),
         "units": unit,
         "units_per_a0": factor,
-        "extent_a0": [float(e) for e in np.ptp(surface.vertices_a0, axis=0)],
+        "extent_a0": [float(e) for e in extent_a0],
     }
     report.update(summary)
     report["surface"] = figures.as_dict()

@@ -14,32 +14,30 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 
-import trimesh
+from .arrays import MeshArrays, as_trimesh
 
 __all__ = ["SUFFIX", "encode_glb"]
 
 SUFFIX = ".glb"
 
 
-def encode_glb(bodies: Sequence[trimesh.Trimesh], names: Sequence[str] | None = None,
+def encode_glb(bodies: Sequence[MeshArrays], names: Sequence[str] | None = None,
                units: str = "") -> bytes:
     """The bytes of one GLB holding each body as a named node.
 
     Examples
     --------
-    >>> import trimesh
-    >>> encode_glb([trimesh.creation.icosphere(0)])[:4]
+    >>> import numpy as np
+    >>> encode_glb([MeshArrays(np.eye(3), np.array([[0, 1, 2]]))])[:4]
     b'glTF'
     """
+    import trimesh
+
     names = names or [f"body{i + 1}" for i in range(len(bodies))]
     scene = trimesh.Scene()
-    previous = [body.units for body in bodies]
-    try:
-        for name, body in zip(names, bodies):
-            if units:
-                body.units = units  # read by the writer into extras; restored below
-            scene.add_geometry(body, node_name=name, geom_name=name)
-        return trimesh.exchange.gltf.export_glb(scene, include_normals=True)
-    finally:
-        for body, unit in zip(bodies, previous):
-            body.units = unit
+    for name, body in zip(names, bodies):
+        mesh = as_trimesh(body)
+        if units:
+            mesh.units = units  # read by the writer into the mesh's extras
+        scene.add_geometry(mesh, node_name=name, geom_name=name)
+    return trimesh.exchange.gltf.export_glb(scene, include_normals=True)

@@ -17,11 +17,16 @@ from ..atomic import output_set, retire_siblings
 from ..errors import UserInputError
 from ..lattice.grid import Lattice
 from ..surface.model import Surface
-from .export import length_scale, mesh_suffix, surface_mesh, surface_report, write_bodies
+from .export import (
+    file_mesh,
+    length_scale,
+    mesh_suffix,
+    surface_arrays,
+    surface_mesh,
+    surface_report,
+    write_bodies,
+)
 from .print_options import PrintOptions
-from .printable import make_printable, require_single_solid, single_solid_problems, solid_parts
-from .split import phase_band_surfaces, split_by_sign
-from .walls import thin_spots
 
 __all__ = ["export_mesh", "sibling_path", "SPLITS", "BODY_LABELS"]
 
@@ -50,7 +55,7 @@ def _family_pattern(path: Path) -> str:
 
 
 def _mean_phase(mesh) -> float:
-    """Circular mean of the vertex phases of a body, radians."""
+    """Circular mean of the vertex phases of a body (a trimesh mesh), radians."""
     phase = np.asarray(mesh.vertex_attributes["phase"], float)
     return float(np.angle(np.mean(np.exp(1j * phase))))
 
@@ -142,8 +147,8 @@ def export_mesh(surface: Surface, path: str | os.PathLike, *, units: str = "a0",
 def _export(surface: Surface, path: Path, suffix: str, factor: float, unit: str,
             size_mm: float | None, phase_map: str, printable: PrintOptions | None, parts: bool,
             split: str | None, bands: int, separate: bool, lattice: Lattice | None) -> dict:
-    """The writing half of :func:`export_mesh`, inside its output set."""
-    mesh = surface_mesh(surface, factor, phase_map)
+    """The writing half of :func:`export_mesh`, inside its output set.  Only print preparation
+    and splits need trimesh (and load it); a plain file is written from the surface's arrays."""
     label = surface.state.label if surface.state is not None else "user field"
     comment = f"{label}; F = {surface.fraction_requested:g}; units {unit}"
     extra: dict = {}
@@ -156,19 +161,25 @@ def _export(surface: Surface, path: Path, suffix: str, factor: float, unit: str,
         return loaded
 
     if parts:
+        from .printable import single_solid_problems, solid_parts
+        from .walls import thin_spots
+
         options = printable if printable is not None else PrintOptions()
         summaries = []
-        for i, piece in enumerate(solid_parts(mesh), start=1):
+        for i, piece in enumerate(solid_parts(surface_mesh(surface, factor, phase_map)), start=1):
             target = sibling_path(path, f"part{i}")
-            read_back = write(target, [piece])
+            read_back = file_mesh(write(target, [piece]), suffix)
             summaries.append({"file": str(target), "problems": single_solid_problems(read_back),
                               "volume_mm3": float(read_back.volume),
                               "thin_walls": thin_spots(read_back, options.min_thickness_mm).as_dict()})
         extra["parts"] = summaries
     elif printable is not None:
-        model = make_printable(mesh, printable, size_mm=size_mm)
+        from .printable import make_printable, require_single_solid
+        from .walls import thin_spots
+
+        model = make_printable(surface_mesh(surface, factor, phase_map), printable, size_mm=size_mm)
         factor *= model.scale
-        written = write(path, [model.mesh], check=require_single_solid)
+        written = file_mesh(write(path, [model.mesh], check=require_single_solid), suffix)
         extra["printable"] = {
             "parts_joined": model.parts_joined,
             "cutaway": model.cutaway,
@@ -177,8 +188,10 @@ def _export(surface: Surface, path: Path, suffix: str, factor: float, unit: str,
             "narrow_gaps": thin_spots(model.mesh, printable.min_gap_mm, "gap").as_dict(),
         }
     elif split:
+        from .split import phase_band_surfaces, split_by_sign
+
         if split == "sign":
-            named = split_by_sign(mesh, surface.psi, state=surface.state)
+            named = split_by_sign(surface_mesh(surface, factor, phase_map), surface.psi, state=surface.state)
         else:
             named = {f"band{k + 1}": surface_mesh(b, factor, phase_map)
                      for k, b in enumerate(phase_band_surfaces(lattice, surface.level, bands))}
@@ -192,7 +205,7 @@ def _export(surface: Surface, path: Path, suffix: str, factor: float, unit: str,
                                   "watertight": bool(b.is_watertight), "mean_phase_rad": _mean_phase(b)}
                            for name, b in named.items()}
     else:
-        write(path, [mesh])
+        write(path, [surface_arrays(surface, factor, phase_map)])
 
     # only a printable model differs from the surface scaled by `factor`
     report = surface_report(surface, factor, unit, size_mm, written=written)

@@ -37,7 +37,8 @@ import trimesh
 from scipy.spatial import cKDTree
 
 from ..errors import UserInputError
-from .bodies import SUPPORT_RGBA, concatenate, face_components, submesh
+from .arrays import SUPPORT_RGBA
+from .bodies import concatenate, face_components, submesh
 from .export import check_size_mm
 from .print_options import DEFAULT_PRINT_OPTIONS, PrintOptions
 from .union import solid_union

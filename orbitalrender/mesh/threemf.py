@@ -34,9 +34,8 @@ from collections.abc import Sequence
 from xml.sax.saxutils import quoteattr
 
 import numpy as np
-import trimesh
 
-from .bodies import SUPPORT_RGBA
+from .arrays import SUPPORT_RGBA, MeshArrays
 
 __all__ = ["SUFFIX", "UNITS", "encode_3mf"]
 
@@ -61,13 +60,13 @@ _RELATIONSHIPS = (
 _DIGITS = 9
 
 
-def encode_3mf(bodies: Sequence[trimesh.Trimesh], names: Sequence[str] | None = None,
+def encode_3mf(bodies: Sequence[MeshArrays], names: Sequence[str] | None = None,
                units: str = "mm", title: str = "") -> bytes:
     """The bytes of one 3MF package holding each body as a named object.
 
     Parameters
     ----------
-    bodies : sequence of trimesh.Trimesh
+    bodies : sequence of MeshArrays
         Closed bodies, coordinates in `units`; vertex colours give each body's display colour.
     names : sequence of str, optional
         One per body (default ``body1``, ``body2``, ...).
@@ -78,8 +77,8 @@ def encode_3mf(bodies: Sequence[trimesh.Trimesh], names: Sequence[str] | None = 
 
     Examples
     --------
-    >>> import io, zipfile, trimesh
-    >>> data = encode_3mf([trimesh.creation.box()], names=["cube"])
+    >>> import io, zipfile
+    >>> data = encode_3mf([MeshArrays(np.eye(3), np.array([[0, 1, 2]]))], names=["triangle"])
     >>> sorted(zipfile.ZipFile(io.BytesIO(data)).namelist())
     ['3D/3dmodel.model', '[Content_Types].xml', '_rels/.rels']
     """
@@ -123,7 +122,7 @@ def _text(value: str) -> str:
     return quoteattr(value)[1:-1]
 
 
-def _write_mesh(out: io.StringIO, body: trimesh.Trimesh) -> None:
+def _write_mesh(out: io.StringIO, body: MeshArrays) -> None:
     vertices = np.asarray(body.vertices, dtype=float)
     faces = np.asarray(body.faces, dtype=np.int64)
     number = f"%.{_DIGITS}g"
@@ -134,13 +133,13 @@ def _write_mesh(out: io.StringIO, body: trimesh.Trimesh) -> None:
     out.write("</triangles>\n")
 
 
-def _display_colour(body: trimesh.Trimesh) -> str:
+def _display_colour(body: MeshArrays) -> str:
     """``#RRGGBB``: the colour of the body's vertex whose phase is nearest the body's circular
     mean phase (its most typical colour), or the mean colour when it has no phase."""
-    if body.visual.kind != "vertex":
+    if body.rgba is None:
         return "#" + "".join(f"{c:02X}" for c in SUPPORT_RGBA[:3])
-    rgb = np.asarray(body.visual.vertex_colors)[:, :3]
-    phase = body.vertex_attributes.get("phase")
+    rgb = np.asarray(body.rgba)[:, :3]
+    phase = body.attributes.get("phase")
     finite = np.isfinite(phase) if phase is not None else np.zeros(len(rgb), bool)
     if finite.any():
         unit = np.exp(1j * np.asarray(phase, float)[finite])
