@@ -196,17 +196,19 @@ def test_a_new_field_is_a_flag_and_a_key_at_once():
 
 def test_names_spelled_out_agree_with_the_library():
     # the definitions name these without importing the heavy modules that use them
-    from orbitalrender.jobs import radial, section, shared
+    from orbitalrender.jobs import radial, shared
     from orbitalrender.lattice.sampler import PRECISIONS
-    from orbitalrender.picture.plane import MAX_PIXELS, MIN_PIXELS, PLANE_NAMES
     from orbitalrender.picture.radialplot import RADIAL_QUANTITIES
-    from orbitalrender.state.units import LENGTH_UNITS_PER_A0, NUCLEUS_PRESETS
 
-    assert shared.LENGTH_UNITS == tuple(LENGTH_UNITS_PER_A0)
-    assert shared.NUCLEUS_NAMES == tuple(NUCLEUS_PRESETS)
     assert shared.PRECISION_NAMES == tuple(PRECISIONS)
     assert radial.RADIAL_QUANTITIES == RADIAL_QUANTITIES
-    assert (section.PLANE_NAMES, section.PIXEL_RANGE) == (PLANE_NAMES, (MIN_PIXELS, MAX_PIXELS))
+
+
+def test_unit_and_preset_names_are_those_with_codata_values():
+    from orbitalrender.state.units import LENGTH_UNITS, LENGTH_UNITS_PER_A0, NUCLEUS_NAMES, NUCLEUS_PRESETS
+
+    assert LENGTH_UNITS == tuple(LENGTH_UNITS_PER_A0)
+    assert NUCLEUS_NAMES == tuple(NUCLEUS_PRESETS)
 
 
 def test_describe_report_from_the_job():

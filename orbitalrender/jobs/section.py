@@ -12,18 +12,14 @@ from dataclasses import dataclass, replace
 from typing import Any, ClassVar
 
 from ..picture.density import DENSITY_SCALES
+from ..picture.plane import MAX_PIXELS, MIN_PIXELS, PLANE_NAMES
 from ..state.limits import FRACTION_MAX
 from .option import option
 from .shared import FRACTION, PHASE_MAPS, FieldOptions, FileOptions, PictureOptions, StateOptions, lazy
 
-__all__ = ["SectionOptions", "PLANE_NAMES", "DENSITY_SCALES", "PIXEL_RANGE", "MAX_DECADES",
+__all__ = ["SectionOptions", "DENSITY_SCALES", "MAX_DECADES",
            "parse_vector", "plane_of", "section_job"]
 
-#: Coordinate planes and the pixels per side accepted (``picture.plane.PLANE_NAMES``,
-#: ``MIN_PIXELS`` and ``MAX_PIXELS``, written out so that defining options does not load
-#: scipy.constants; tests/test_jobs.py checks that they agree).
-PLANE_NAMES = ("xy", "xz", "yz")
-PIXEL_RANGE = (16, 4096)
 #: Largest logarithmic range offered: float64 densities span far more, but beyond 12
 #: decades the picture shows round-off of the tails rather than the state.
 MAX_DECADES = 12.0
@@ -68,7 +64,7 @@ class SectionOptions(FileOptions, PictureOptions, FieldOptions, StateOptions):
                                      lo=0, lo_open=True, unit="a0", flag="--extent",
                                      metavar="HALF_WIDTH_A0")
     pixels: int = option(400, "pixels per side at which psi is evaluated", type="integer",
-                         lo=PIXEL_RANGE[0], hi=PIXEL_RANGE[1], metavar="N")
+                         lo=MIN_PIXELS, hi=MAX_PIXELS, metavar="N")
     scale: str = option("linear", "lightness from |psi|^2 / max, linear or logarithmic", type="text",
                         choices=DENSITY_SCALES)
     decades: float = option(3.0, "range of the logarithmic scale in powers of ten", lo=0, hi=MAX_DECADES,

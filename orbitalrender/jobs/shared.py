@@ -16,6 +16,7 @@ from typing import Any
 from ..colormap import PHASE_SCHEMES as PHASE_MAPS
 from ..picture.output import DPI_RANGE, TEXT_SIZE_RANGE_PT
 from ..state.limits import Z_RANGE
+from ..state.units import LENGTH_UNITS, NUCLEUS_NAMES
 from .option import Options, option
 
 __all__ = ["StateOptions", "FieldOptions", "LatticeOptions", "PictureOptions", "FileOptions",
@@ -29,12 +30,6 @@ FRACTION = 0.9
 FRACTION_HELP = "probability enclosed by the surface, above 0 and at most 0.9999"
 #: Names of the lattice precisions (``lattice.sampler.PRECISIONS`` holds their dtypes).
 PRECISION_NAMES = ("single", "double")
-#: Length units of axes, scale bars and mesh coordinates: the keys of
-#: ``state.units.LENGTH_UNITS_PER_A0`` (written out so that defining options does not load
-#: scipy.constants; tests/test_jobs.py checks that the two agree).
-LENGTH_UNITS = ("a0", "angstrom", "nm", "pm")
-#: Nucleus presets: the keys of ``state.units.NUCLEUS_NAMES`` (checked likewise).
-NUCLEUS_NAMES = ("infinite", "hydrogen", "deuterium", "positronium", "muonic-hydrogen")
 
 
 def lazy(module: str, name: str) -> Callable[..., Any]:

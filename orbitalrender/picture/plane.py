@@ -2,9 +2,9 @@
 
 A :class:`Plane` is ``n . r = offset`` with two in-plane unit axes (u, v) that
 become the picture's horizontal and vertical axes; :func:`plane` makes one from a
-coordinate-plane name or a normal vector.  Only the standard library and numpy
-(and scipy.constants, for length units) are loaded here, so option definitions can
-read :data:`PLANE_NAMES`, :data:`MIN_PIXELS` and :data:`MAX_PIXELS` cheaply.
+coordinate-plane name or a normal vector.  Only the standard library and numpy are
+loaded here, so option definitions read :data:`PLANE_NAMES`, :data:`MIN_PIXELS` and
+:data:`MAX_PIXELS` from it cheaply.
 """
 
 from __future__ import annotations

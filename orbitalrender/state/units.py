@@ -1,23 +1,26 @@
 """Physical constants and unit conversions, all taken from scipy.constants (CODATA).
 
 Nothing here is typed in by hand: each value is looked up in
-``scipy.constants.physical_constants`` by its CODATA name.
+``scipy.constants.physical_constants`` by its CODATA name, on first use (module
+attributes resolved by :func:`__getattr__`), so that importing this module, naming its
+units and presets or converting a0 to a0 does not load scipy (about 0.13 s).
 """
 
 from __future__ import annotations
 
 import math
-
-from scipy.constants import physical_constants as _pc
+from functools import cache
 
 from .limits import check_nucleus_mass_ratio
 
 __all__ = [
-    "HARTREE_EV",
-    "BOHR_RADIUS_M",
-    "AU_TIME_S",
-    "NUCLEUS_PRESETS",
-    "LENGTH_UNITS_PER_A0",
+    "HARTREE_EV",  # noqa: F822 - resolved by __getattr__
+    "BOHR_RADIUS_M",  # noqa: F822 - resolved by __getattr__
+    "AU_TIME_S",  # noqa: F822 - resolved by __getattr__
+    "NUCLEUS_NAMES",
+    "NUCLEUS_PRESETS",  # noqa: F822 - resolved by __getattr__
+    "LENGTH_UNITS",
+    "LENGTH_UNITS_PER_A0",  # noqa: F822 - resolved by __getattr__
     "reduced_mass_ratio",
     "nucleus_reduced_mass_ratio",
     "femtoseconds_to_au",
@@ -26,29 +29,53 @@ __all__ = [
     "unit_label",
 ]
 
-HARTREE_EV: float = _pc["Hartree energy in eV"][0]
-BOHR_RADIUS_M: float = _pc["Bohr radius"][0]
-AU_TIME_S: float = _pc["atomic unit of time"][0]
-_PROTON_ME: float = _pc["proton-electron mass ratio"][0]
-_MUON_ME: float = _pc["muon-electron mass ratio"][0]
-_DEUTERON_ME: float = _pc["deuteron-electron mass ratio"][0]
-
-#: Named two-body systems: (orbiting-particle mass, nucleus mass), both in m_e.
-NUCLEUS_PRESETS: dict[str, tuple[float, float]] = {
-    "infinite": (1.0, math.inf),
-    "hydrogen": (1.0, _PROTON_ME),
-    "deuterium": (1.0, _DEUTERON_ME),
-    "positronium": (1.0, 1.0),
-    "muonic-hydrogen": (_MUON_ME, _PROTON_ME),
+#: Length units of axes, scale bars and mesh coordinates.
+LENGTH_UNITS = ("a0", "angstrom", "nm", "pm")
+#: Each length unit per metre (SI prefixes, exact); a0 is taken from CODATA.
+_UNITS_PER_M = {"angstrom": 1e10, "nm": 1e9, "pm": 1e12}
+#: Named two-body systems (see :data:`NUCLEUS_PRESETS` for their masses).
+NUCLEUS_NAMES = ("infinite", "hydrogen", "deuterium", "positronium", "muonic-hydrogen")
+#: Module attributes and the CODATA name each is read from.
+_CODATA_NAMES = {
+    "HARTREE_EV": "Hartree energy in eV",
+    "BOHR_RADIUS_M": "Bohr radius",
+    "AU_TIME_S": "atomic unit of time",
 }
 
-#: How many of each length unit make one Bohr radius.
-LENGTH_UNITS_PER_A0: dict[str, float] = {
-    "a0": 1.0,
-    "angstrom": BOHR_RADIUS_M * 1e10,
-    "nm": BOHR_RADIUS_M * 1e9,
-    "pm": BOHR_RADIUS_M * 1e12,
-}
+
+@cache
+def _codata(name: str) -> float:
+    """The CODATA value called `name` (scipy.constants.physical_constants, SI units)."""
+    from scipy.constants import physical_constants
+
+    return float(physical_constants[name][0])
+
+
+@cache
+def _presets() -> dict[str, tuple[float, float]]:
+    proton, muon = _codata("proton-electron mass ratio"), _codata("muon-electron mass ratio")
+    masses = [(1.0, math.inf), (1.0, proton), (1.0, _codata("deuteron-electron mass ratio")), (1.0, 1.0),
+              (muon, proton)]
+    return dict(zip(NUCLEUS_NAMES, masses))
+
+
+@cache
+def _length_units() -> dict[str, float]:
+    a0_m = _codata("Bohr radius")
+    return {unit: 1.0 if unit == "a0" else a0_m * _UNITS_PER_M[unit] for unit in LENGTH_UNITS}
+
+
+def __getattr__(name: str):
+    """HARTREE_EV, BOHR_RADIUS_M, AU_TIME_S (SI), NUCLEUS_PRESETS (orbiting-particle mass and
+    nucleus mass, both in m_e, by preset name) and LENGTH_UNITS_PER_A0 (how many of each
+    length unit make one Bohr radius), looked up in CODATA on first use."""
+    if name in _CODATA_NAMES:
+        return _codata(_CODATA_NAMES[name])
+    if name == "NUCLEUS_PRESETS":
+        return _presets()
+    if name == "LENGTH_UNITS_PER_A0":
+        return _length_units()
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 
 def reduced_mass_ratio(particle_mass_me: float = 1.0, nucleus_mass_me: float = math.inf) -> float:
@@ -80,29 +107,33 @@ def nucleus_reduced_mass_ratio(name_or_ratio: str | float) -> float:
     """
     if isinstance(name_or_ratio, str):
         key = name_or_ratio.strip().lower()
-        if key in NUCLEUS_PRESETS:
-            return reduced_mass_ratio(*NUCLEUS_PRESETS[key])
+        if key in NUCLEUS_NAMES:
+            return reduced_mass_ratio(*_presets()[key])
         try:
             name_or_ratio = float(key)
         except ValueError:
             raise ValueError(
                 f"unknown nucleus {name_or_ratio!r}: use one of "
-                f"{', '.join(NUCLEUS_PRESETS)} or a nucleus-to-electron mass ratio") from None
+                f"{', '.join(NUCLEUS_NAMES)} or a nucleus-to-electron mass ratio") from None
     return reduced_mass_ratio(1.0, check_nucleus_mass_ratio(name_or_ratio))
 
 
 def femtoseconds_to_au(t_fs: float) -> float:
     """Convert a time in femtoseconds to atomic units of time (hbar / E_h)."""
-    return t_fs * 1e-15 / AU_TIME_S
+    return t_fs * 1e-15 / _codata("atomic unit of time")
 
 
 def a0_to(unit: str) -> float:
-    """Factor that turns a length in a0 into `unit` (a0, angstrom, nm or pm)."""
-    try:
-        return LENGTH_UNITS_PER_A0[unit]
-    except KeyError:
-        raise ValueError(f"unknown length unit {unit!r}: use one of "
-                         f"{', '.join(LENGTH_UNITS_PER_A0)}") from None
+    """Factor that turns a length in a0 into `unit` (a0, angstrom, nm or pm).
+
+    Examples
+    --------
+    >>> a0_to("a0"), round(a0_to("pm"), 4)  # CODATA 2018: a0 = 52.9177 pm
+    (1.0, 52.9177)
+    """
+    if unit not in LENGTH_UNITS:
+        raise ValueError(f"unknown length unit {unit!r}: use one of {', '.join(LENGTH_UNITS)}")
+    return 1.0 if unit == "a0" else _length_units()[unit]
 
 
 #: Axis-label text (matplotlib mathtext) of each length unit.
