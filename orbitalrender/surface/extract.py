@@ -29,7 +29,6 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import ndimage
 from scipy.optimize import brentq
 from skimage.measure import marching_cubes
 
@@ -90,12 +89,29 @@ def _azimuthal_unwinder(lattice: Lattice, m: int):
 
 
 def _rotate_into(values: np.ndarray, factor, out: np.ndarray, limit: float | None) -> bool:
-    """out = Re(values * factor(i)) slab by slab; False as soon as |Im| exceeds `limit`."""
+    """out = Re(values * factor(i)) slab by slab; False as soon as |Im| exceeds `limit`.
+
+    A constant factor c + i d is applied as Re = a c - b d, Im = a d + b c on the real and
+    imaginary parts (a, b) in float32, without a complex temporary (a third of the time
+    of the complex product at N = 256).
+    """
     for i in range(values.shape[0]):
-        slab = values[i] * np.asarray(factor(i), dtype=np.complex64)
-        if limit is not None and float(np.max(np.abs(slab.imag))) > limit:
-            return False
-        out[i] = slab.real
+        w = np.asarray(factor(i), dtype=np.complex64)
+        if w.ndim:
+            slab = values[i] * w
+            if limit is not None and float(np.max(np.abs(slab.imag))) > limit:
+                return False
+            out[i] = slab.real
+            continue
+        a, b, c, d = values[i].real, values[i].imag, np.float32(w.real), np.float32(w.imag)
+        if limit is not None:
+            imag = a * d
+            imag += b * c
+            if float(np.max(np.abs(imag))) > limit:
+                return False
+        np.multiply(a, c, out=out[i])
+        if d:
+            out[i] -= b * d
     return True
 
 
@@ -156,12 +172,10 @@ def _crop(mask_of: np.ndarray, amplitude: float) -> tuple[slice, ...] | None:
     if not float(mask_of.max()) > amplitude:
         return None
     above = mask_of >= amplitude
+    columns = above.any(axis=2)  # one pass over the lattice; x and y from its (N, N) result
     box = []
-    for axis in range(3):
-        other = tuple(a for a in range(3) if a != axis)
-        hit = np.flatnonzero(np.any(above, axis=other))
-        if hit.size == 0:
-            return None
+    for axis, hits in enumerate((columns.any(axis=1), columns.any(axis=0), above.any(axis=(0, 1)))):
+        hit = np.flatnonzero(hits)
         box.append(slice(max(hit[0] - 1, 0), min(hit[-1] + 2, above.shape[axis])))
     return tuple(box)
 
@@ -242,6 +256,8 @@ def _exact_vertices(state: State, verts: np.ndarray, level: float, spacing_a0: f
 
 def _interpolated_psi(lattice: Lattice, verts: np.ndarray) -> np.ndarray:
     """Trilinear interpolation of the lattice values at the vertices."""
+    from scipy import ndimage  # here: only user fields and phase bands need it
+
     idx = ((verts - np.asarray(lattice.origin_a0)) / np.asarray(lattice.spacing_a0)).T
     re = ndimage.map_coordinates(lattice.values.real, idx, order=1, mode="nearest")
     im = ndimage.map_coordinates(lattice.values.imag, idx, order=1, mode="nearest")
