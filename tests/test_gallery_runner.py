@@ -4,6 +4,9 @@ from __future__ import annotations
 
 import io
 import json
+import os
+import subprocess
+import sys
 import textwrap
 from pathlib import Path
 
@@ -286,3 +289,30 @@ def test_a_cache_limit_that_is_not_a_positive_finite_number_is_refused(tmp_path,
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "--cache-limit-gib" in err[0] and limit in err[0]
     assert not (tmp_path / "out").exists()
+
+
+@pytest.mark.parametrize("jobs", ["1", "2"])
+def test_a_coarse_lattice_warning_is_one_line_from_any_worker(tmp_path, jobs):
+    # 30s at N = 64: the lattice step (about 62 a0) is far coarser than its innermost radial
+    # nodes (the Laguerre zeros, about 2 a0 apart near the nucleus), so the run warns; in a
+    # worker process the warning used to come out in Python's file:line format over two lines
+    cfg = tmp_path / "g.toml"
+    cfg.write_text(textwrap.dedent("""
+        [[outputs]]
+        name = "s30"
+        kind = "figure"
+        state = "30,0,0"
+        resolution = 64
+        width_px = 200
+        height_px = 160
+        supersample = 1
+        """), encoding="utf-8")
+    repo = Path(__file__).resolve().parents[1]
+    done = subprocess.run([sys.executable, "-m", "orbitalrender", "gallery", str(cfg), "--out",
+                           str(tmp_path / "out"), "--jobs", jobs, "--quiet"], cwd=repo, capture_output=True,
+                          text=True, timeout=300, env={**os.environ, "MPLBACKEND": "Agg"})
+    assert done.returncode == 0, done.stderr
+    lines = done.stderr.strip().splitlines()
+    assert len(lines) == 1, lines
+    assert lines[0].startswith("orbitalrender gallery: warning: 30,0,0: the lattice step")
+    assert "resolution of about" in lines[0]

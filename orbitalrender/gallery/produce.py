@@ -11,8 +11,10 @@ dataclass built from its keys, so a gallery output and the command's output agre
 
 from __future__ import annotations
 
+import contextlib
 import time
 import traceback
+import warnings
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 from pathlib import Path
@@ -183,6 +185,19 @@ def _draft_level(lattice: Lattice, fraction: float, stats: CacheStats) -> LevelR
     return level_for_fraction(as_field, fraction)
 
 
+@contextlib.contextmanager
+def _warnings_as_notes(stats: CacheStats, subject: str):
+    """The package's warnings raised inside (a lattice too coarse for the nodes, ...) become
+    one note each in `stats`, which the gallery shows as one line, whichever process drew."""
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        try:
+            yield
+        finally:
+            for w in caught:
+                stats.note(f"{subject}: {w.message}")
+
+
 def make_request(req: Request, cache: DiskCache) -> tuple[CacheStats, float, str]:
     """Make (or find) one surface or level in the cache; returns (counts, seconds, what was done).
 
@@ -196,7 +211,8 @@ def make_request(req: Request, cache: DiskCache) -> tuple[CacheStats, float, str
     if stored is not None and stored.is_file():
         return stats, time.perf_counter() - t0, "cached"
     try:
-        (_surface if req.what == "surface" else _level)(req, cache, stats)
+        with _warnings_as_notes(stats, req.state.label if req.state is not None else "user field"):
+            (_surface if req.what == "surface" else _level)(req, cache, stats)
     except Exception as exc:  # noqa: BLE001 - reported by the output that needs it
         return stats, time.perf_counter() - t0, f"failed: {exc}"
     how = "computed" if stats.computed[req.what] else "cached"
@@ -347,7 +363,8 @@ def make_output(spec: OutputSpec, out_dir: Path, cache: DiskCache,
         path.parent.mkdir(parents=True, exist_ok=True)
         thumb.parent.mkdir(parents=True, exist_ok=True)
         work = _Work(spec, out_dir, cache, caps, stats)
-        with output_set():  # picture, report and thumbnail replace the earlier ones together
+        with _warnings_as_notes(stats, f"output '{spec.name}'"), output_set():
+            # picture, report and thumbnail replace the earlier ones together
             report, thumbnail = _DRAWERS[spec.kind](work, path)
             report = {**report, "gallery_output": spec.name, "gallery_settings": spec.options}
             write_report(report_path, report)
