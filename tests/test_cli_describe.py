@@ -107,7 +107,7 @@ def test_bad_field_files_are_one_line_and_status_2(tmp_path, capsys, monkeypatch
     monkeypatch.setattr(memory, "available_bytes", lambda: 10_000)
     assert main(["describe", "--field", str(big)]) == 2
     err = capsys.readouterr().err
-    assert err.count("\n") == 1 and "30x30x30" in err and "GiB" in err
+    assert err.count("\n") == 1 and "30x30x30" in err and "MiB" in err
 
 
 def test_argparse_errors_exit_2(capsys):

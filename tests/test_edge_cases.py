@@ -14,7 +14,11 @@ Closedness is checked with trimesh (``Trimesh.is_watertight``: every edge in exa
 from __future__ import annotations
 
 import json
+import os
+import subprocess
+import sys
 import tracemalloc
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -255,11 +259,32 @@ def test_a_field_whose_level_is_its_maximum_is_refused_as_empty():
         extract_surface(field, 0.0625)
 
 
-def test_too_little_free_memory_says_so_instead_of_suggesting_a_useless_resolution(monkeypatch):
-    # free memory cannot be taken away for real in a test: the system's figure is replaced by
-    # 4 KiB, less than an 8^3 lattice needs (it once suggested "the largest resolution that fits is 2")
-    from orbitalrender.lattice import memory
+# A real shortage: the child process caps its own address space (RLIMIT_AS, as `ulimit -v`
+# does) a few KiB above what it has mapped once numpy and the package are loaded.
+_CAPPED = """
+import resource, sys
+import numpy as np
+from orbitalrender.lattice.memory import MemoryLimitError, require_lattice_memory
+mapped = next(int(ln.split()[1]) * 1024 for ln in open("/proc/self/status") if ln.startswith("VmSize:"))
+resource.setrlimit(resource.RLIMIT_AS, (mapped + int(sys.argv[1]), resource.RLIM_INFINITY))
+try:
+    require_lattice_memory(64, np.complex64, what="lattice")
+except MemoryLimitError as exc:
+    print(exc)
+"""
 
-    monkeypatch.setattr(memory, "available_bytes", lambda: 4 * 1024)
-    with pytest.raises(memory.MemoryLimitError, match="this machine has too little free memory now"):
-        memory.require_lattice_memory(64, np.complex64, what="lattice")
+
+@pytest.mark.skipif(not Path("/proc/self/status").exists(), reason="needs Linux /proc")
+def test_too_little_free_memory_says_so_instead_of_suggesting_a_useless_resolution():
+    # 4 KiB of room is less than an 8^3 lattice needs (it once suggested "the largest
+    # resolution that fits is 2"); 64 KiB leaves room for a small lattice, which is named
+    repo = Path(__file__).resolve().parents[1]
+    said = {}
+    for room in (4 * 1024, 64 * 1024):
+        done = subprocess.run([sys.executable, "-c", _CAPPED, str(room)], cwd=repo, capture_output=True,
+                              text=True, timeout=120, env={**os.environ, "PYTHONPATH": str(repo)})
+        assert done.returncode == 0, done.stderr
+        said[room] = done.stdout.strip()
+    assert "KiB can be used" in said[4096] and "this machine has too little free memory now" in said[4096]
+    largest = int(said[65536].rsplit(" ", 1)[1])
+    assert 8 <= largest < 64 and "the largest resolution that fits is" in said[65536]

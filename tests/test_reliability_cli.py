@@ -424,3 +424,35 @@ def test_a_huge_plane_normal_is_a_direction_not_an_overflow(tmp_path, capsys):
     status, _, err = run_cli(["section", "2pz", "--normal", "1e300,1e300,0", "--pixels", "32",
                               "--out", tmp_path / "s.png"], capsys)
     assert status == 0 and err == ""
+
+
+# The command line in a child process whose address space is capped (RLIMIT_AS, as
+# `ulimit -v` does) 1 GiB above what it has mapped after loading the command line: a real
+# shortage, far below what /proc/meminfo reports free on the machine.
+_CAPPED_CLI = """
+import resource, sys
+from orbitalrender.cli import main
+mapped = next(int(ln.split()[1]) * 1024 for ln in open("/proc/self/status") if ln.startswith("VmSize:"))
+resource.setrlimit(resource.RLIMIT_AS, (mapped + 2**30, resource.RLIM_INFINITY))
+sys.exit(main(sys.argv[1:]))
+"""
+
+
+@pytest.mark.skipif(not Path("/proc/self/status").exists(), reason="needs Linux /proc")
+def test_under_an_address_space_cap_the_resolution_offered_really_fits(tmp_path):
+    def run(resolution: int) -> subprocess.CompletedProcess:
+        argv = ["mesh", "2pz", "--resolution", str(resolution), "--out", str(tmp_path / "m.ply")]
+        return subprocess.run([sys.executable, "-c", _CAPPED_CLI, *argv], cwd=REPO, capture_output=True,
+                              text=True, timeout=300,
+                              env={**os.environ, "PYTHONPATH": str(REPO), "MPLBACKEND": "Agg"})
+
+    refused = run(1024)
+    line = assert_one_line_error(refused.returncode, refused.stderr, "1024^3",
+                                 "the largest resolution that fits is")
+    budget = line.split("but only ")[1].split(" can be used")[0]
+    assert budget.endswith("MiB") or float(budget.split()[0]) < 1.0, budget  # the cap, not the machine
+    offered = int(line.rsplit(" ", 1)[1])
+    assert 64 <= offered < 1024
+    made = run(offered)
+    assert made.returncode == 0, made.stderr
+    assert (tmp_path / "m.ply").stat().st_size > 0

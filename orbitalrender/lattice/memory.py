@@ -8,7 +8,8 @@ import numpy as np
 
 __all__ = ["MemoryLimitError", "available_bytes", "sampling_bytes", "largest_resolution",
            "require_lattice_memory", "require_bytes", "surface_bytes_per_point", "surface_bytes",
-           "require_surface_memory", "usable_bytes", "GIB", "require_lattice_and_surface_memory"]
+           "require_surface_memory", "usable_bytes", "GIB", "require_lattice_and_surface_memory",
+           "amount"]
 
 # Bytes per lattice point that the sampler may need on top of the output array: a
 # margin of 1/8 of the output plus the chunk temporaries of the slab-by-slab path,
@@ -29,12 +30,34 @@ _SURFACE_FIELD_BYTES = 4
 GIB = 2**30
 
 
+def amount(size_bytes: float) -> str:
+    """A memory size for messages: GiB from 0.1 GiB up, else MiB from 0.1 MiB up, else KiB.
+
+    Examples
+    --------
+    >>> amount(21 * GIB), amount(40 * 2**20), amount(3 * 1024)
+    ('21.0 GiB', '40.0 MiB', '3.0 KiB')
+    """
+    for unit, size in (("GiB", GIB), ("MiB", 2**20)):
+        if size_bytes >= 0.1 * size:
+            return f"{size_bytes / size:.1f} {unit}"
+    return f"{size_bytes / 1024:.1f} KiB"
+
+
 class MemoryLimitError(MemoryError):
     """A request that would not fit in memory, refused before allocating."""
 
 
 def available_bytes() -> int:
-    """Memory the system can give this process now (MemAvailable on Linux)."""
+    """Memory the system can give this process now: MemAvailable on Linux, or less when the
+    process's address space is capped (``ulimit -v``, RLIMIT_AS: the cap less what the
+    process has mapped, VmSize) or its control group has a memory limit (cgroup v2
+    ``memory.max`` less ``memory.current``)."""
+    free = _meminfo_available()
+    return int(min([free] + [room for room in (_address_space_room(), _cgroup_room()) if room is not None]))
+
+
+def _meminfo_available() -> int:
     try:
         with open("/proc/meminfo", encoding="ascii") as fh:
             for line in fh:
@@ -43,6 +66,38 @@ def available_bytes() -> int:
     except OSError:
         pass
     return int(os.sysconf("SC_PAGE_SIZE") * os.sysconf("SC_AVPHYS_PAGES"))
+
+
+def _address_space_room() -> int | None:
+    """RLIMIT_AS less the mapped address space (VmSize), or None without a cap."""
+    try:
+        import resource
+
+        cap = resource.getrlimit(resource.RLIMIT_AS)[0]
+        if cap == resource.RLIM_INFINITY:
+            return None
+        with open("/proc/self/status", encoding="ascii") as fh:
+            mapped = next(int(ln.split()[1]) * 1024 for ln in fh if ln.startswith("VmSize:"))
+    except (ImportError, OSError, StopIteration, ValueError):
+        return None
+    return max(cap - mapped, 0)
+
+
+def _cgroup_room() -> int | None:
+    """memory.max less memory.current of this process's cgroup (v2), or None without a limit."""
+    try:
+        with open("/proc/self/cgroup", encoding="ascii") as fh:
+            path = next(ln.split(":", 2)[2].strip() for ln in fh if ln.startswith("0::"))
+        folder = os.path.join("/sys/fs/cgroup", path.lstrip("/"))
+        with open(os.path.join(folder, "memory.max"), encoding="ascii") as fh:
+            limit = fh.read().strip()
+        if limit == "max":
+            return None
+        with open(os.path.join(folder, "memory.current"), encoding="ascii") as fh:
+            used = int(fh.read().strip())
+    except (OSError, StopIteration, ValueError):
+        return None
+    return max(int(limit) - used, 0)
 
 
 def sampling_bytes(resolution: int, dtype=np.complex64, chunk_bytes: int = 0) -> int:
@@ -118,8 +173,8 @@ def require_lattice_memory(resolution: int, dtype=np.complex64, chunk_bytes: int
                   else f"even the smallest useful resolution, {_SMALLEST_USEFUL_RESOLUTION}, does not fit: "
                        "this machine has too little free memory now")
         raise MemoryLimitError(
-            f"a {resolution}^3 {what} needs about {needed / GIB:.1f} GiB but only "
-            f"{budget / GIB:.1f} GiB can be used; {advice}")
+            f"a {resolution}^3 {what} needs about {amount(needed)} but only "
+            f"{amount(budget)} can be used; {advice}")
 
 
 def require_bytes(needed_bytes: int, what: str) -> None:
@@ -127,8 +182,7 @@ def require_bytes(needed_bytes: int, what: str) -> None:
     budget = usable_bytes()
     if needed_bytes > budget:
         raise MemoryLimitError(
-            f"{what} needs about {needed_bytes / GIB:.1f} GiB but only "
-            f"{budget / GIB:.1f} GiB can be used")
+            f"{what} needs about {amount(needed_bytes)} but only {amount(budget)} can be used")
 
 
 def require_lattice_and_surface_memory(resolution: int, dtype=np.complex64) -> None:

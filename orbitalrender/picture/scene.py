@@ -35,7 +35,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..colormap import PHASE_SCHEMES, srgb_to_linear
-from ..lattice.memory import GIB, MemoryLimitError, usable_bytes
+from ..lattice.memory import MemoryLimitError, amount, usable_bytes
 from ..state.phase import sign_rotation
 from ..surface.model import Surface
 from .axis import AXIS_RGB, axis_layer, axis_segment
@@ -180,7 +180,7 @@ def require_render_memory(width_px: int, height_px: int, supersample: int = 3,
             f"about {int(width_px * scale)} x {int(height_px * scale)} px fits")
     raise MemoryLimitError(
         f"a {width_px} x {height_px} px render at supersampling {supersample} needs about "
-        f"{needed / GIB:.1f} GiB but only {budget / GIB:.1f} GiB can be used; {hint}")
+        f"{amount(needed)} but only {amount(budget)} can be used; {hint}")
 
 
 def _unit(v) -> np.ndarray:
