@@ -187,15 +187,23 @@ def _draft_level(lattice: Lattice, fraction: float, stats: CacheStats) -> LevelR
 
 @contextlib.contextmanager
 def _warnings_as_notes(stats: CacheStats, subject: str):
-    """The package's warnings raised inside (a lattice too coarse for the nodes, ...) become
-    one note each in `stats`, which the gallery shows as one line, whichever process drew."""
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
-        try:
-            yield
-        finally:
-            for w in caught:
-                stats.note(f"{subject}: {w.message}")
+    """The package's warnings raised inside (a lattice too coarse for the nodes) become one
+    note each in `stats`, which the gallery shows as one line, whichever process drew;
+    other warnings are shown as they would be without this."""
+    from ..surface.resolution import LatticeResolutionWarning
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("always", LatticeResolutionWarning)  # each output says it
+        shown = warnings.showwarning
+
+        def show(message, category, filename, lineno, file=None, line=None) -> None:
+            if issubclass(category, LatticeResolutionWarning):
+                stats.note(f"{subject}: {message}")
+            else:
+                shown(message, category, filename, lineno, file, line)
+
+        warnings.showwarning = show
+        yield
 
 
 def make_request(req: Request, cache: DiskCache) -> tuple[CacheStats, float, str]:
