@@ -179,13 +179,11 @@ def surface_mesh(surface: Surface, factor: float = 1.0, scheme: str = "uniform")
 
     Examples
     --------
-    >>> import numpy as np
-    >>> from orbitalrender.surface.model import Surface
-    >>> v = np.array([[0, 0, 0], [1, 0, 0], [0, 1, 0], [0, 0, 1]], float)
-    >>> f = np.array([[0, 2, 1], [0, 1, 3], [0, 3, 2], [1, 2, 3]])
-    >>> s = Surface(v, f, v, np.ones(4, complex), 0.1, None, None, None, (2, 2, 2), (1, 1, 1))
-    >>> round(float(surface_mesh(s, factor=2.0).volume), 6)
-    1.333333
+    >>> from orbitalrender import eigenstate
+    >>> from orbitalrender.surface.extract import extract_surface
+    >>> mesh = surface_mesh(extract_surface(eigenstate(1, 0, 0), 0.5, resolution=16))
+    >>> mesh.is_watertight, mesh.vertex_attributes["phase"].dtype
+    (True, dtype('float32'))
     """
     return as_trimesh(surface_arrays(surface, factor, scheme))
 
