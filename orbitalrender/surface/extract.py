@@ -30,7 +30,6 @@ import math
 
 import numpy as np
 from scipy import ndimage
-from scipy.optimize import brentq
 from skimage.measure import marching_cubes
 
 from ..lattice.grid import Box, Lattice
@@ -39,6 +38,7 @@ from ..lattice.sampler import check_resolution, sample
 from ..state.hydrogen import radial_function
 from ..state.limits import check_fraction
 from ..state.model import State
+from ..state.numerics import bracketed_root
 from ..state.phase import is_real
 from .level import LevelResult, level_for_fraction
 from .model import Surface
@@ -351,7 +351,7 @@ def surface_box(state: State, level: float, resolution: int = 128) -> Box | None
     if above.size == 0:
         return None
     k = int(above[-1])
-    reach = float(brentq(lambda x: float(bound(x)) - amplitude, r[k], r[k + 1]))
+    reach = float(bracketed_root(lambda x: float(bound(x)) - amplitude, r[k], r[k + 1]))
     half = reach * (resolution - 1) / (resolution - 1 - 4)  # two spacings beyond the reach
     return Box(state.centres_a0[0], half)
 
