@@ -29,7 +29,6 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import ndimage
 from skimage.measure import marching_cubes
 
 from ..lattice.grid import Box, Lattice
@@ -242,6 +241,8 @@ def _exact_vertices(state: State, verts: np.ndarray, level: float, spacing_a0: f
 
 def _interpolated_psi(lattice: Lattice, verts: np.ndarray) -> np.ndarray:
     """Trilinear interpolation of the lattice values at the vertices."""
+    from scipy import ndimage  # here: only user fields need it, and it takes 0.1 s to load
+
     idx = ((verts - np.asarray(lattice.origin_a0)) / np.asarray(lattice.spacing_a0)).T
     re = ndimage.map_coordinates(lattice.values.real, idx, order=1, mode="nearest")
     im = ndimage.map_coordinates(lattice.values.imag, idx, order=1, mode="nearest")
