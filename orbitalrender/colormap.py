@@ -58,6 +58,9 @@ _HUE_AT_ZERO_DEG = 30.0
 #: The two tones of the sign map in CIELAB (L*, a*, b*): positive a warm orange, negative a
 #: mid blue (our choice).
 _SIGN_LAB = {"positive": (68.0, 30.0, 62.0), "negative": (52.0, 0.0, -48.0)}
+#: Bisection steps of the largest in-gamut chroma (2^-40 of the range: round-off), and the
+#: first of them that every candidate lightness of the uniform map takes.
+_GAMUT_STEPS, _COARSE_STEPS = 40, 8
 
 #: D65 white point (X, Y, Z) with Y = 1, CIE 15:2004 (the values skimage also uses).
 _WHITE_D65 = np.array([0.95047, 1.0, 1.08883])
@@ -87,17 +90,21 @@ def _lab_in_gamut(lab: np.ndarray) -> np.ndarray:
     return np.all((linear >= -1e-4) & (linear <= 1 + 1e-4), axis=-1)
 
 
+def _bisect_in_gamut(make_lab, lo: np.ndarray, hi: np.ndarray, steps: int) -> tuple[np.ndarray, np.ndarray]:
+    """`steps` bisection steps on brackets [lo, hi] of scales c, each colour set
+    make_lab(c) (c of shape (count,), result (count, H, 3)) inside sRGB at lo and not at hi."""
+    for _ in range(steps):
+        c = 0.5 * (lo + hi)
+        fits = _lab_in_gamut(make_lab(c)).all(axis=1)
+        lo, hi = np.where(fits, c, lo), np.where(fits, hi, c)
+    return lo, hi
+
+
 def _largest_in_gamut(make_lab, upper: float, count: int = 1) -> np.ndarray:
     """Largest scales c in [0, upper] for which each of the `count` colour sets
-    make_lab(c) (c of shape (count,), result (count, H, 3)) lies entirely inside sRGB;
-    one bisection for all sets at once."""
-    lo, hi = np.zeros(count), np.full(count, upper)
-    for _ in range(40):
-        c = 0.5 * (lo + hi)
-        lab = make_lab(c)
-        fits = _lab_in_gamut(lab.reshape(-1, 3)).reshape(count, -1).all(axis=1)
-        lo, hi = np.where(fits, c, lo), np.where(fits, hi, c)
-    return lo
+    make_lab(c) lies entirely inside sRGB (to upper / 2^_GAMUT_STEPS); one bisection for
+    all sets at once."""
+    return _bisect_in_gamut(make_lab, np.zeros(count), np.full(count, upper), _GAMUT_STEPS)[0]
 
 
 def _circle(lightness, chroma, hues: np.ndarray) -> np.ndarray:
@@ -107,13 +114,24 @@ def _circle(lightness, chroma, hues: np.ndarray) -> np.ndarray:
 
 @cache
 def _uniform_lab() -> np.ndarray:
-    """Constant-L* circle with the largest C* that fits in sRGB at every hue, over L* 50..85."""
+    """Constant-L* circle with the largest C* that fits in sRGB at every hue, over L* 50..85.
+
+    Every candidate L* is bisected _COARSE_STEPS times; only those whose bracket still
+    reaches the best lower bound can hold the largest chroma, and only they are bisected
+    on to _GAMUT_STEPS, so the result is that of the full bisection of every candidate.
+    """
     hues = np.deg2rad(_HUE_AT_ZERO_DEG) + 2 * np.pi * np.arange(LUT_SIZE) / LUT_SIZE
     candidates = np.arange(50.0, 86.0, 1.0)
-    chroma = _largest_in_gamut(lambda c: _circle(candidates[:, None], c[:, None], hues[None, :]),
-                               130.0, len(candidates))
+
+    def circles(lightness):
+        return lambda c: _circle(lightness[:, None], c[:, None], hues[None, :])
+
+    lo, hi = _bisect_in_gamut(circles(candidates), np.zeros(len(candidates)), np.full(len(candidates), 130.0),
+                              _COARSE_STEPS)
+    near = np.flatnonzero(hi >= lo.max())
+    chroma, _ = _bisect_in_gamut(circles(candidates[near]), lo[near], hi[near], _GAMUT_STEPS - _COARSE_STEPS)
     best = int(np.argmax(chroma))
-    return _circle(candidates[best], chroma[best], hues)
+    return _circle(candidates[near[best]], chroma[best], hues)
 
 
 @cache
