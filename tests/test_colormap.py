@@ -40,25 +40,25 @@ def test_srgb_to_lab_matches_skimage_on_many_colours():
     assert np.max(np.abs(ours - theirs)) < 1e-2
 
 
-def test_lab_to_srgb_matches_skimage_on_many_colours():
-    lab = np.column_stack([_RNG.uniform(0.0, 100.0, 5000), _RNG.uniform(-90.0, 90.0, 5000),
-                           _RNG.uniform(-90.0, 90.0, 5000)])
-    ours = lab_to_srgb(lab)
+def _skimage_from_lab(convert, lightness, ab, count):
+    """Random CIELAB colours (L* in `lightness`, a* and b* in +-`ab`), `convert` of them by
+    skimage, and where skimage did not clip a negative Z to 0 (it warns there; we do not clip)."""
+    lab = np.column_stack([_RNG.uniform(*lightness, count), _RNG.uniform(-ab, ab, count),
+                           _RNG.uniform(-ab, ab, count)])
     with warnings.catch_warnings():
-        warnings.simplefilter("ignore")  # skimage warns where it clips a negative Z to 0
-        theirs = lab2rgb(lab[None])[0]  # both clip the result to [0, 1]
-    fz_ok = (lab[:, 0] + 16.0) / 116.0 - lab[:, 2] / 200.0 >= 0.0
-    assert np.max(np.abs(ours[fz_ok] - theirs[fz_ok])) < 1e-4
+        warnings.simplefilter("ignore")
+        theirs = convert(lab[None])[0]
+    return lab, theirs, (lab[:, 0] + 16.0) / 116.0 - lab[:, 2] / 200.0 >= 0.0
+
+
+def test_lab_to_srgb_matches_skimage_on_many_colours():
+    lab, theirs, fz_ok = _skimage_from_lab(lab2rgb, (0.0, 100.0), 90.0, 5000)  # both clip to [0, 1]
+    assert np.max(np.abs(lab_to_srgb(lab)[fz_ok] - theirs[fz_ok])) < 1e-4
 
 
 def test_lab_to_linear_matches_skimage_before_clipping():
-    lab = np.column_stack([_RNG.uniform(1.0, 100.0, 3000), _RNG.uniform(-60.0, 60.0, 3000),
-                           _RNG.uniform(-60.0, 60.0, 3000)])
+    lab, xyz, fz_ok = _skimage_from_lab(lab2xyz, (1.0, 100.0), 60.0, 3000)
     ours = lab_to_linear(lab)
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")  # skimage warns where it clips a negative Z to 0
-        xyz = lab2xyz(lab[None])[0]
-    fz_ok = (lab[:, 0] + 16.0) / 116.0 - lab[:, 2] / 200.0 >= 0.0
     assert np.max(np.abs(ours - xyz @ rgb_from_xyz.T)[fz_ok]) < 2e-4
     # and our inverse takes it back
     np.testing.assert_allclose(linear_to_lab(ours), lab, atol=1e-9)
