@@ -15,6 +15,7 @@ when it runs.
 
 from __future__ import annotations
 
+import gc
 import signal
 import sys
 
@@ -186,13 +187,11 @@ def main(argv: list[str] | None = None) -> int:
     A real process also runs full garbage collections less often (see
     :data:`_FULL_COLLECTION_EVERY`) and freezes the collector's objects when the work is
     done (``gc.freeze``): the interpreter's shutdown then skips its collections over
-    every object the libraries made (numba's and matplotlib's types, a few hundred
-    thousand), which took 0.3 s of a figure command, longer than drawing it.  Nothing is
+    every object the libraries made (numba's and matplotlib's types, some 150 000),
+    which took 0.3 s of a figure command, longer than drawing it.  Nothing is
     lost: the process ends, and open files are flushed and closed as before.
     """
     if argv is None:
-        import gc
-
         young, middle, _ = gc.get_threshold()
         gc.set_threshold(young, middle, _FULL_COLLECTION_EVERY)
     previous = _on_sigint(quit_on_interrupt)
@@ -202,8 +201,6 @@ def main(argv: list[str] | None = None) -> int:
         if argv is not None and previous is not None:
             _on_sigint(previous)
         if argv is None:
-            import gc
-
             gc.freeze()
 
 
