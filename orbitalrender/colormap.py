@@ -1,8 +1,9 @@
 """Colour, shared by the picture and mesh steps: the complex phase of psi as hue, built in CIELAB.
 
 This module sits below both :mod:`orbitalrender.picture` and :mod:`orbitalrender.mesh`
-and imports only numpy when loaded (scikit-image is loaded when a table is first built),
-so option definitions can read :data:`PHASE_SCHEMES` cheaply.
+and imports only numpy, so option definitions can read :data:`PHASE_SCHEMES` cheaply;
+the CIELAB <-> sRGB conversions are written here (CIE 15:2004 with the D65 white, the
+IEC 61966-2-1 matrix and transfer function) rather than loaded from an image library.
 
 Three schemes, all of our own construction:
 
@@ -24,6 +25,7 @@ References
 .. [1] CIE 15:2004, *Colorimetry*, 3rd ed. (CIELAB, D65 white).
 .. [2] P. Kovesi, "Good colour maps: how to design them", arXiv:1509.03700 (2015),
        on constant-lightness cyclic maps.
+.. [3] IEC 61966-2-1:1999, *Default RGB colour space - sRGB*.
 """
 
 from __future__ import annotations
@@ -41,6 +43,10 @@ __all__ = [
     "sign_colours",
     "srgb_to_linear",
     "linear_to_srgb",
+    "cie_lightness",
+    "lab_to_linear",
+    "linear_to_lab",
+    "lab_to_srgb",
 ]
 
 PHASE_SCHEMES = ("uniform", "cvd", "sign")
@@ -52,6 +58,18 @@ _HUE_AT_ZERO_DEG = 30.0
 #: The two tones of the sign map in CIELAB (L*, a*, b*): positive a warm orange, negative a
 #: mid blue (our choice).
 _SIGN_LAB = {"positive": (68.0, 30.0, 62.0), "negative": (52.0, 0.0, -48.0)}
+#: Bisection steps of the largest in-gamut chroma (2^-40 of the range: round-off), and the
+#: first of them that every candidate lightness of the uniform map takes.
+_GAMUT_STEPS, _COARSE_STEPS = 40, 8
+
+#: D65 white point (X, Y, Z) with Y = 1, CIE 15:2004 (the values skimage also uses).
+_WHITE_D65 = np.array([0.95047, 1.0, 1.08883])
+#: CIE XYZ -> linear sRGB, IEC 61966-2-1:1999 (inverse of the sRGB primaries matrix), and back.
+_RGB_FROM_XYZ = np.array([[3.2404542, -1.5371385, -0.4985314],
+                          [-0.9692660, 1.8760108, 0.0415560],
+                          [0.0556434, -0.2040259, 1.0572252]])
+_XYZ_FROM_RGB = np.linalg.inv(_RGB_FROM_XYZ)
+_EPSILON, _KAPPA = 216.0 / 24389.0, 24389.0 / 27.0  # CIE 15:2004, the exact forms of 0.008856, 903.3
 
 
 @cache
@@ -63,32 +81,30 @@ def sign_colours() -> dict[str, tuple[float, float, float]]:
     >>> sorted(sign_colours())
     ['negative', 'positive']
     """
-    from skimage.color import lab2rgb
-
-    return {key: tuple(float(c) for c in lab2rgb(np.array([[lab]]))[0, 0])
-            for key, lab in _SIGN_LAB.items()}
+    return {key: tuple(float(c) for c in lab_to_srgb(np.array(lab))) for key, lab in _SIGN_LAB.items()}
 
 
 def _lab_in_gamut(lab: np.ndarray) -> np.ndarray:
     """True where CIELAB colours lie inside the sRGB gamut (linear RGB in [0, 1], tolerance 1e-4)."""
-    from skimage.color import lab2xyz
-    from skimage.color.colorconv import rgb_from_xyz
+    linear = lab_to_linear(lab)
+    return np.all((linear >= -1e-4) & (linear <= 1 + 1e-4), axis=-1)
 
-    linear = lab2xyz(lab.reshape(1, -1, 3)).reshape(-1, 3) @ rgb_from_xyz.T
-    return np.all((linear >= -1e-4) & (linear <= 1 + 1e-4), axis=1)
+
+def _bisect_in_gamut(make_lab, lo: np.ndarray, hi: np.ndarray, steps: int) -> tuple[np.ndarray, np.ndarray]:
+    """`steps` bisection steps on brackets [lo, hi] of scales c, each colour set
+    make_lab(c) (c of shape (count,), result (count, H, 3)) inside sRGB at lo and not at hi."""
+    for _ in range(steps):
+        c = 0.5 * (lo + hi)
+        fits = _lab_in_gamut(make_lab(c)).all(axis=1)
+        lo, hi = np.where(fits, c, lo), np.where(fits, hi, c)
+    return lo, hi
 
 
 def _largest_in_gamut(make_lab, upper: float, count: int = 1) -> np.ndarray:
     """Largest scales c in [0, upper] for which each of the `count` colour sets
-    make_lab(c) (c of shape (count,), result (count, H, 3)) lies entirely inside sRGB;
-    one bisection for all sets at once."""
-    lo, hi = np.zeros(count), np.full(count, upper)
-    for _ in range(40):
-        c = 0.5 * (lo + hi)
-        lab = make_lab(c)
-        fits = _lab_in_gamut(lab.reshape(-1, 3)).reshape(count, -1).all(axis=1)
-        lo, hi = np.where(fits, c, lo), np.where(fits, hi, c)
-    return lo
+    make_lab(c) lies entirely inside sRGB (to upper / 2^_GAMUT_STEPS); one bisection for
+    all sets at once."""
+    return _bisect_in_gamut(make_lab, np.zeros(count), np.full(count, upper), _GAMUT_STEPS)[0]
 
 
 def _circle(lightness, chroma, hues: np.ndarray) -> np.ndarray:
@@ -98,13 +114,24 @@ def _circle(lightness, chroma, hues: np.ndarray) -> np.ndarray:
 
 @cache
 def _uniform_lab() -> np.ndarray:
-    """Constant-L* circle with the largest C* that fits in sRGB at every hue, over L* 50..85."""
+    """Constant-L* circle with the largest C* that fits in sRGB at every hue, over L* 50..85.
+
+    Every candidate L* is bisected _COARSE_STEPS times; only those whose bracket still
+    reaches the best lower bound can hold the largest chroma, and only they are bisected
+    on to _GAMUT_STEPS, so the result is that of the full bisection of every candidate.
+    """
     hues = np.deg2rad(_HUE_AT_ZERO_DEG) + 2 * np.pi * np.arange(LUT_SIZE) / LUT_SIZE
     candidates = np.arange(50.0, 86.0, 1.0)
-    chroma = _largest_in_gamut(lambda c: _circle(candidates[:, None], c[:, None], hues[None, :]),
-                               130.0, len(candidates))
+
+    def circles(lightness):
+        return lambda c: _circle(lightness[:, None], c[:, None], hues[None, :])
+
+    lo, hi = _bisect_in_gamut(circles(candidates), np.zeros(len(candidates)), np.full(len(candidates), 130.0),
+                              _COARSE_STEPS)
+    near = np.flatnonzero(hi >= lo.max())
+    chroma, _ = _bisect_in_gamut(circles(candidates[near]), lo[near], hi[near], _GAMUT_STEPS - _COARSE_STEPS)
     best = int(np.argmax(chroma))
-    return _circle(candidates[best], chroma[best], hues)
+    return _circle(candidates[near[best]], chroma[best], hues)
 
 
 @cache
@@ -145,9 +172,7 @@ def phase_lut(scheme: str = "uniform") -> np.ndarray:
         return rgb
     else:
         raise ValueError(f"unknown phase colour scheme {scheme!r}: use one of {', '.join(PHASE_SCHEMES)}")
-    from skimage.color import lab2rgb
-
-    return np.clip(lab2rgb(lab.reshape(1, -1, 3)).reshape(-1, 3), 0.0, 1.0)
+    return lab_to_srgb(lab)
 
 
 def phase_to_rgb(phase_rad: np.ndarray, scheme: str = "uniform") -> np.ndarray:
@@ -204,3 +229,60 @@ def linear_to_srgb(linear: np.ndarray) -> np.ndarray:
     """
     linear = np.clip(np.asarray(linear, dtype=float), 0.0, 1.0)
     return np.where(linear <= 0.0031308, 12.92 * linear, 1.055 * linear ** (1 / 2.4) - 0.055)
+
+
+def _lab_f(t: np.ndarray) -> np.ndarray:
+    """CIE 15:2004's f(t): the cube root above epsilon, the straight line (kappa t + 16) / 116 below."""
+    return np.where(t > _EPSILON, np.cbrt(np.maximum(t, _EPSILON)), (_KAPPA * t + 16.0) / 116.0)
+
+
+def cie_lightness(y: np.ndarray) -> np.ndarray:
+    """CIE L* of relative luminance Y (white = 1), CIE 15:2004.
+
+    Examples
+    --------
+    >>> round(float(cie_lightness(0.18)), 3)  # a mid grey card, 18 % reflectance
+    49.496
+    """
+    return 116.0 * _lab_f(np.asarray(y, dtype=float)) - 16.0
+
+
+def lab_to_linear(lab: np.ndarray) -> np.ndarray:
+    """Linear sRGB (..., 3) of CIELAB colours (..., 3), D65, unclipped (CIE 15:2004 inverted,
+    then the IEC 61966-2-1 matrix); outside [0, 1] where a colour is outside the gamut.
+
+    Examples
+    --------
+    >>> [round(float(v), 6) for v in lab_to_linear(np.array([100.0, 0.0, 0.0]))]  # white
+    [1.0, 1.0, 1.0]
+    """
+    lab = np.asarray(lab, dtype=float)
+    fy = (lab[..., 0] + 16.0) / 116.0
+    f = np.stack([fy + lab[..., 1] / 500.0, fy, fy - lab[..., 2] / 200.0], axis=-1)
+    cube = f ** 3
+    xyz = np.where(cube > _EPSILON, cube, (116.0 * f - 16.0) / _KAPPA) * _WHITE_D65
+    return xyz @ _RGB_FROM_XYZ.T
+
+
+def linear_to_lab(linear: np.ndarray) -> np.ndarray:
+    """CIELAB (..., 3), D65, of linear sRGB colours (..., 3): the inverse of :func:`lab_to_linear`.
+
+    Examples
+    --------
+    >>> [round(float(v), 3) for v in linear_to_lab(srgb_to_linear(np.array([1.0, 0.0, 0.0])))]
+    [53.241, 80.092, 67.203]
+    """
+    f = _lab_f(np.asarray(linear, dtype=float) @ _XYZ_FROM_RGB.T / _WHITE_D65)
+    fx, fy, fz = f[..., 0], f[..., 1], f[..., 2]
+    return np.stack([116.0 * fy - 16.0, 500.0 * (fx - fy), 200.0 * (fy - fz)], axis=-1)
+
+
+def lab_to_srgb(lab: np.ndarray) -> np.ndarray:
+    """sRGB (..., 3) in [0, 1] of CIELAB colours, clipped where a colour is outside the gamut.
+
+    Examples
+    --------
+    >>> [round(float(v), 4) for v in lab_to_srgb(np.array([53.241, 80.092, 67.203]))]  # sRGB red
+    [1.0, 0.0, 0.0]
+    """
+    return linear_to_srgb(lab_to_linear(lab))

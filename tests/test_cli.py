@@ -7,6 +7,7 @@ started.  Exit status 130 after SIGINT is 128 + 2, the shell convention (common 
 
 from __future__ import annotations
 
+import gc
 import json
 import os
 import signal
@@ -18,7 +19,7 @@ from pathlib import Path
 import pytest
 
 import orbitalrender
-from orbitalrender.cli import COMMANDS, build_parser, main, protect_leading_minus
+from orbitalrender.cli import _FULL_COLLECTION_EVERY, COMMANDS, build_parser, main, protect_leading_minus
 
 REPO = Path(__file__).resolve().parents[1]
 #: Libraries that take long to import; --help and `import orbitalrender` load none of them.
@@ -190,3 +191,21 @@ def test_numba_kernels_are_cached_per_user_not_inside_the_package(tmp_path):
     done = subprocess.run([sys.executable, "-c", code], env=env, cwd=tmp_path, capture_output=True,
                           text=True, timeout=120)
     assert done.stdout.strip() == str(tmp_path / "mine")
+
+
+def test_a_caller_in_python_keeps_its_garbage_collector_settings(capsys):
+    # only a real process (main() without argv) collects less often and freezes at the end
+    before = gc.get_threshold(), gc.get_freeze_count()
+    assert main(["describe", "1s"]) == 0
+    assert (gc.get_threshold(), gc.get_freeze_count()) == before
+
+
+def test_a_real_process_collects_less_often_and_freezes_at_the_end():
+    code = ("import gc, runpy, sys\n"
+            "sys.argv = ['orbitalrender', 'describe', '1s']\n"
+            "try:\n    runpy.run_module('orbitalrender', run_name='__main__')\n"
+            "except SystemExit:\n    pass\n"
+            "print('GC', gc.get_threshold()[2], gc.get_freeze_count() > 0, file=sys.stderr)")
+    done = subprocess.run([sys.executable, "-c", code], env=_ENV, cwd=REPO, capture_output=True, text=True,
+                          timeout=120)
+    assert f"GC {_FULL_COLLECTION_EVERY} True" in done.stderr, done.stderr

@@ -8,6 +8,10 @@ from __future__ import annotations
 
 import hashlib
 import json
+import os
+import subprocess
+import sys
+from pathlib import Path
 
 import pytest
 from PIL import Image
@@ -15,6 +19,7 @@ from PIL import Image
 from orbitalrender.cli import main
 
 LOW = ["--resolution", "40", "--size", "320x240", "--supersample", "2"]
+REPO = Path(__file__).resolve().parents[1]
 
 
 def _run(capsys, *argv):
@@ -153,3 +158,29 @@ def test_text_size_and_triad_refusals(tmp_path, capsys):
     assert not out.exists()
     for argv in (["--text-size", "14", "--triad", "off"], ["--triad", "on"]):
         assert _run(capsys, "2s", *LOW, *argv, "--out", str(out))[0] == 0
+
+
+#: Libraries a figure of an analytic state has no use for: root finding and Legendre roots
+#: are written in orbitalrender.state.numerics, CIELAB in orbitalrender.colormap, and
+#: trilinear interpolation (scipy.ndimage) serves user fields only.
+_NOT_FOR_A_FIGURE = ("scipy.optimize", "scipy.special", "scipy.ndimage", "skimage.color", "trimesh",
+                     "manifold3d")
+
+
+def test_a_figure_process_loads_only_what_it_uses(tmp_path):
+    out = tmp_path / "p.png"
+    argv = ["orbitalrender", "figure", "3,2,0", *LOW, "--out", str(out)]
+    code = ("import runpy, sys, json\n"
+            f"sys.argv = {argv!r}\n"
+            "try:\n    runpy.run_module('orbitalrender', run_name='__main__')\n"
+            "except SystemExit as stop:\n    status = stop.code\n"
+            "print('STATUS=' + str(status) + ' MODULES=' + json.dumps(sorted(sys.modules)), file=sys.stderr)")
+    env = {**os.environ, "PYTHONPATH": str(REPO), "MPLBACKEND": "Agg"}
+    done = subprocess.run([sys.executable, "-c", code], env=env, cwd=REPO, capture_output=True, text=True,
+                          timeout=300)
+    line = next(ln for ln in done.stderr.splitlines() if ln.startswith("STATUS="))
+    status, modules = line[len("STATUS="):].split(" MODULES=")
+    assert status == "0" and out.exists(), done.stderr
+    loaded = set(json.loads(modules))
+    assert {"matplotlib", "numba", "skimage.measure"} <= loaded  # the probe sees the work's modules
+    assert not loaded & set(_NOT_FOR_A_FIGURE), loaded & set(_NOT_FOR_A_FIGURE)

@@ -15,6 +15,7 @@ when it runs.
 
 from __future__ import annotations
 
+import gc
 import signal
 import sys
 
@@ -166,19 +167,41 @@ def _on_sigint(handler):
         return None
 
 
+#: Collections of the middle generation between two full collections of the garbage
+#: collector in a command-line process (CPython's default is 10).  Loading numba,
+#: matplotlib and scipy makes some 150 000 objects that live as long as the process; at
+#: the default a figure command walks them all three times (0.15 s, measured with
+#: gc.callbacks).  At 100 a full collection waits for about 700 000 new objects
+#: (700 x 10 x 100 with the default young thresholds), so a long gallery run still frees
+#: its reference cycles.
+_FULL_COLLECTION_EVERY = 100
+
+
 def main(argv: list[str] | None = None) -> int:
     """Run the command line; returns the exit status.
 
     Ctrl-C exits with status 130 and one line.  Given no `argv` (a real process), the
     quiet Ctrl-C handler stays installed after the work; with `argv` (a caller in
     Python) the caller's handler is put back.
+
+    A real process also runs full garbage collections less often (see
+    :data:`_FULL_COLLECTION_EVERY`) and freezes the collector's objects when the work is
+    done (``gc.freeze``): the interpreter's shutdown then skips its collections over
+    every object the libraries made (numba's and matplotlib's types, some 150 000),
+    which took 0.3 s of a figure command, longer than drawing it.  Nothing is
+    lost: the process ends, and open files are flushed and closed as before.
     """
+    if argv is None:
+        young, middle, _ = gc.get_threshold()
+        gc.set_threshold(young, middle, _FULL_COLLECTION_EVERY)
     previous = _on_sigint(quit_on_interrupt)
     try:
         return _main(sys.argv[1:] if argv is None else list(argv))
     finally:
         if argv is not None and previous is not None:
             _on_sigint(previous)
+        if argv is None:
+            gc.freeze()
 
 
 #: Commands whose outputs are not one set (the gallery replaces each output's files as a set).

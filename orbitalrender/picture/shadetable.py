@@ -26,9 +26,15 @@ from __future__ import annotations
 from functools import cache
 
 import numpy as np
-from skimage.color import rgb2lab
 
-from ..colormap import linear_to_srgb, phase_to_rgb, srgb_to_linear
+from ..colormap import (
+    cie_lightness,
+    lab_to_linear,
+    linear_to_lab,
+    linear_to_srgb,
+    phase_to_rgb,
+    srgb_to_linear,
+)
 
 __all__ = ["SHADE_PHASES", "SHADE_LEVELS", "shade_colours", "shade_table", "shade_lookup"]
 
@@ -39,29 +45,6 @@ SHADE_PHASES = 1024
 SHADE_LEVELS = 64
 #: Bisection steps for the largest in-gamut chroma: 2^-16 of the chroma, far below a visible step.
 _CHROMA_STEPS = 16
-
-
-#: D65 white point (X, Y, Z) with Y = 1, CIE 15:2004 (the values skimage also uses).
-_WHITE_D65 = np.array([0.95047, 1.0, 1.08883])
-#: CIE XYZ -> linear sRGB, IEC 61966-2-1:1999 (inverse of the sRGB primaries matrix).
-_RGB_FROM_XYZ = np.array([[3.2404542, -1.5371385, -0.4985314],
-                          [-0.9692660, 1.8760108, 0.0415560],
-                          [0.0556434, -0.2040259, 1.0572252]])
-_EPSILON, _KAPPA = 216.0 / 24389.0, 24389.0 / 27.0  # CIE 15:2004, the exact forms of 0.008856, 903.3
-
-
-def _lab_to_linear(lab: np.ndarray) -> np.ndarray:
-    """Linear sRGB (..., 3) of CIELAB colours (D65), unclipped (CIE 15:2004, inverse of eq. 8.1-8.3)."""
-    fy = (lab[..., 0] + 16.0) / 116.0
-    f = np.stack([fy + lab[..., 1] / 500.0, fy, fy - lab[..., 2] / 200.0], axis=-1)
-    cube = f ** 3
-    xyz = np.where(cube > _EPSILON, cube, (116.0 * f - 16.0) / _KAPPA) * _WHITE_D65
-    return xyz @ _RGB_FROM_XYZ.T
-
-
-def _lightness(y: np.ndarray) -> np.ndarray:
-    """CIE L* of relative luminance Y (white = 1), CIE 15:2004 eq. 8.1."""
-    return np.where(y > _EPSILON, 116.0 * np.cbrt(np.maximum(y, _EPSILON)) - 16.0, _KAPPA * y)
 
 
 def _in_gamut(linear: np.ndarray) -> np.ndarray:
@@ -77,16 +60,17 @@ def shade_colours(base_srgb: np.ndarray, s_max: float) -> np.ndarray:
     far as the sRGB gamut needs.
     """
     base = np.asarray(base_srgb, dtype=float).reshape(-1, 3)
-    lab = rgb2lab(base[None])[0]
-    y0 = srgb_to_linear(base) @ np.array([0.2126, 0.7152, 0.0722])  # IEC 61966-2-1 luminance
+    linear = srgb_to_linear(base)
+    lab = linear_to_lab(linear)
+    y0 = linear @ np.array([0.2126, 0.7152, 0.0722])  # IEC 61966-2-1 luminance
     s = s_max * np.arange(SHADE_LEVELS) / (SHADE_LEVELS - 1)
-    lightness = np.clip(_lightness(np.outer(y0, s)), 0.0, 100.0)
+    lightness = np.clip(cie_lightness(np.outer(y0, s)), 0.0, 100.0)
     chroma_max = np.hypot(lab[:, 1], lab[:, 2])
     hue = np.arctan2(lab[:, 2], lab[:, 1])
     direction = np.stack([np.cos(hue), np.sin(hue)], axis=-1)[:, None, :]
 
     def colour(light: np.ndarray, c: np.ndarray, dirs: np.ndarray = direction) -> np.ndarray:
-        return _lab_to_linear(np.concatenate([light[..., None], c[..., None] * dirs], axis=-1))
+        return lab_to_linear(np.concatenate([light[..., None], c[..., None] * dirs], axis=-1))
 
     chroma = np.broadcast_to(chroma_max[:, None], lightness.shape).copy()
     out = colour(lightness, chroma)

@@ -255,9 +255,12 @@ def band_lists(rows_px: np.ndarray, keep: np.ndarray, height: int,
 
     rows_px : (F, 3) vertex rows of each triangle.
     """
-    lo = np.clip(np.floor(rows_px.min(axis=1) - 0.5), 0, height - 1).astype(np.int64) // band
-    hi = np.clip(np.ceil(rows_px.max(axis=1) - 0.5), 0, height - 1).astype(np.int64) // band
-    ok = keep & (rows_px.max(axis=1) >= -1) & (rows_px.min(axis=1) <= height + 1)
+    # elementwise over the three columns: several times faster than a reduction along axis 1
+    top = np.minimum(np.minimum(rows_px[:, 0], rows_px[:, 1]), rows_px[:, 2])
+    bottom = np.maximum(np.maximum(rows_px[:, 0], rows_px[:, 1]), rows_px[:, 2])
+    lo = np.clip(np.floor(top - 0.5), 0, height - 1).astype(np.int64) // band
+    hi = np.clip(np.ceil(bottom - 0.5), 0, height - 1).astype(np.int64) // band
+    ok = keep & (bottom >= -1) & (top <= height + 1)
     ids = np.flatnonzero(ok)
     lo, hi = lo[ok], hi[ok]
     count = hi - lo + 1

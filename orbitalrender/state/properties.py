@@ -22,10 +22,10 @@ import math
 from dataclasses import asdict, dataclass
 
 import numpy as np
-from scipy.optimize import brentq
 
 from .hydrogen import _laguerre, _legendre_q, check_quantum_numbers, radial_function
 from .model import State, _real_terms, energy_hartree
+from .numerics import bracketed_root
 from .quadrature import space_grid
 from .radial import radius_holding
 from .units import HARTREE_EV
@@ -149,7 +149,7 @@ def _sqrt_rho_grid(n: int, Z: float, reduced_mass_ratio: float) -> np.ndarray:
 
 
 def _sign_change_roots(f, grid: np.ndarray) -> list[float]:
-    """Roots of f between neighbouring grid points where f changes sign (refined by brentq),
+    """Roots of f between neighbouring grid points where f changes sign (refined by Brent's method),
     plus grid points where f is exactly zero."""
     values = f(grid)
     roots = [float(g) for g, v in zip(grid, values) if v == 0.0]
@@ -157,8 +157,8 @@ def _sign_change_roots(f, grid: np.ndarray) -> list[float]:
     change = np.flatnonzero(sign[:-1] * sign[1:] < 0)
     scale = float(np.max(np.abs(grid)))
     for i in change:
-        roots.append(brentq(lambda t: float(f(t)), grid[i], grid[i + 1],
-                            xtol=1e-15 * scale, rtol=4 * np.finfo(float).eps))
+        roots.append(bracketed_root(lambda t: float(f(t)), grid[i], grid[i + 1],
+                                    xtol=1e-15 * scale, rtol=4 * np.finfo(float).eps))
     return sorted(roots)
 
 
@@ -197,7 +197,7 @@ def most_probable_radius(n: int, l: int, Z: float = 1.0, reduced_mass_ratio: flo
     """Radius (a0) where the radial density r^2 R_nl^2 is largest, found numerically.
 
     The largest sample on a fine grid brackets the maximum; there the slope of r R_nl
-    changes sign, and brentq finds that zero to round-off.
+    changes sign, and Brent's method finds that zero to round-off.
 
     Examples
     --------
@@ -209,8 +209,8 @@ def most_probable_radius(n: int, l: int, Z: float = 1.0, reduced_mass_ratio: flo
     i = int(np.argmax((radial_function(n, l, grid, Z, reduced_mass_ratio) * grid) ** 2))
     k = _rho_per_a0(n, Z, reduced_mass_ratio)
     lo, hi = k * grid[max(i - 1, 0)], k * grid[min(i + 1, len(grid) - 1)]
-    rho = brentq(lambda x: float(_density_slope(n, l, x)), lo, hi, xtol=1e-15 * hi,
-                 rtol=4 * np.finfo(float).eps)
+    rho = bracketed_root(lambda x: float(_density_slope(n, l, x)), lo, hi, xtol=1e-15 * hi,
+                         rtol=4 * np.finfo(float).eps)
     return float(rho / k)
 
 

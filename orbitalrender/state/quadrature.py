@@ -16,6 +16,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from .numerics import gauss_legendre
+
 __all__ = ["SpaceGrid", "space_grid", "integrate"]
 
 
@@ -42,15 +44,13 @@ def _sphere_grid(radial_scale_a0: float, n_radial: int, n_polar: int, n_azimuth:
     """Product grid around the origin: mapped Gauss-Legendre in r, Gauss-Legendre in cos(theta),
     trapezoid (exact for trigonometric polynomials) in phi; theta measured from `axis`
     (default z)."""
-    from scipy.special import roots_legendre  # fast for large counts; scipy loads only when used
-
-    x, wx = roots_legendre(n_radial)
+    x, wx = gauss_legendre(n_radial)
     t = 0.5 * (x + 1.0)  # (0, 1)
     # r = s t^2 / (1 - t)^2 clusters points at the nucleus, where the cusps are,
     # and reaches far enough for slowly decaying high-n states.
     r = radial_scale_a0 * t**2 / (1.0 - t) ** 2
     dr = radial_scale_a0 * 2.0 * t / (1.0 - t) ** 3 * 0.5 * wx
-    c, wc = roots_legendre(n_polar)
+    c, wc = gauss_legendre(n_polar)
     phi = 2.0 * np.pi * np.arange(n_azimuth) / n_azimuth
     wphi = 2.0 * np.pi / n_azimuth
     s = np.sqrt(1.0 - c**2)

@@ -11,9 +11,9 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy.optimize import brentq
 
 from .hydrogen import check_quantum_numbers, radial_function
+from .numerics import bracketed_root
 
 __all__ = ["radial_cumulative", "radius_holding"]
 
@@ -99,5 +99,5 @@ def radius_holding(n: int, l: int, fraction: float, Z: float = 1.0,
     else:
         raise ValueError(f"no radius holds a fraction {fraction!r} of the ({n},{l}) probability "
                          "within the precision of the radial quadrature (use a smaller fraction)")
-    return float(brentq(lambda R: radial_cumulative(n, l, R, Z, reduced_mass_ratio) - fraction,
+    return float(bracketed_root(lambda R: radial_cumulative(n, l, R, Z, reduced_mass_ratio) - fraction,
                         0.0, hi, xtol=1e-13 * scale, rtol=1e-13))

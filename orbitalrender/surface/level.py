@@ -24,19 +24,17 @@ found by sorting or bisection.  Which quadrature depends on the state:
 
 from __future__ import annotations
 
-import functools
 import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.optimize import brentq
-from scipy.special import roots_legendre
 
 from ..lattice.grid import Lattice
 from ..lattice.userfield import check_field_values
 from ..state.hydrogen import radial_function, spherical_harmonic_xyz
 from ..state.limits import check_fraction
 from ..state.model import State
+from ..state.numerics import bracketed_root, gauss_legendre
 from ..state.quadrature import space_grid
 from ..state.radial import radius_holding
 
@@ -116,19 +114,9 @@ class LevelResult:
 
 
 # -- helpers shared by the rules --------------------------------------------------------
-@functools.lru_cache(maxsize=16)
-def _gauss_legendre(count: int) -> tuple[np.ndarray, np.ndarray]:
-    """Gauss-Legendre nodes and weights on [-1, 1] (scipy's asymptotic formulas are fast
-    for large counts, unlike an eigenvalue solve)."""
-    x, w = roots_legendre(count)
-    x.flags.writeable = False
-    w.flags.writeable = False
-    return x, w
-
-
 def _radial_nodes(r_max_a0: float, panels: int, order: int) -> tuple[np.ndarray, np.ndarray]:
     """Composite Gauss-Legendre nodes and weights on [0, r_max] (a0)."""
-    x, w = _gauss_legendre(order)
+    x, w = gauss_legendre(order)
     edges = np.linspace(0.0, r_max_a0, panels + 1)
     half = 0.5 * np.diff(edges)
     mid = 0.5 * (edges[1:] + edges[:-1])
@@ -185,10 +173,10 @@ def _angular_factor(state: State) -> tuple[np.ndarray, np.ndarray]:
     ms = {t.m for t in state.terms}
     l = state.terms[0].l
     if len(ms) == 1:  # B independent of phi
-        c, wc = _gauss_legendre(_POLAR_NODES)
+        c, wc = gauss_legendre(_POLAR_NODES)
         x, y, z, w = np.sqrt(1.0 - c * c), np.zeros_like(c), c, 2.0 * np.pi * wc
     else:
-        c, wc = _gauss_legendre(_POLAR_NODES_2D)
+        c, wc = gauss_legendre(_POLAR_NODES_2D)
         phi = 2.0 * np.pi * np.arange(_AZIMUTH_NODES_2D) / _AZIMUTH_NODES_2D
         s = np.sqrt(1.0 - c * c)[:, None]
         x, y = (s * np.cos(phi)).ravel(), (s * np.sin(phi)).ravel()
@@ -230,8 +218,8 @@ def _radial_angular(state: State, fraction: float) -> tuple[float, float]:
         lo -= 40.0
     else:
         raise _unresolved(fraction, enclosed(math.exp(lo)))
-    log_t = brentq(lambda s: enclosed(math.exp(s)) - fraction, lo, math.log(top),
-                   xtol=1e-13, rtol=1e-14)
+    log_t = bracketed_root(lambda s: enclosed(math.exp(s)) - fraction, lo, math.log(top),
+                           xtol=1e-13, rtol=1e-14)
     level = math.exp(log_t)
     return level, enclosed(level)
 
@@ -282,8 +270,8 @@ def _lines_level(lines: np.ndarray, mass: np.ndarray, fraction: float) -> tuple[
     floor = math.log(top) - 80.0
     if scale * _smoothed_mass(ls, ms, js, math.exp(floor)) < fraction:
         raise _unresolved(fraction, float(mass.sum()))
-    log_c = brentq(lambda s: scale * _smoothed_mass(ls, ms, js, math.exp(s)) - fraction,
-                   floor, math.log(top), xtol=1e-4)
+    log_c = bracketed_root(lambda s: scale * _smoothed_mass(ls, ms, js, math.exp(s)) - fraction,
+                           floor, math.log(top), xtol=1e-4)
     lo, hi = log_c - 0.05, min(log_c + 0.05, math.log(top))
     for _ in range(_MAX_WIDENINGS * 80):  # steps of 0.5 down to the same floor as above
         if _smoothed_mass(lines, mass, jump, math.exp(lo)) >= fraction:
@@ -297,8 +285,8 @@ def _lines_level(lines: np.ndarray, mass: np.ndarray, fraction: float) -> tuple[
     band = (lines + 0.5 * jump > t_lo) & (lines - 0.5 * jump < t_hi)
     inside = float(np.sum(mass[(lines - 0.5 * jump >= t_hi)]))
     lb, mb, jb = lines[band], mass[band], jump[band]
-    log_t = brentq(lambda s: inside + _smoothed_mass(lb, mb, jb, math.exp(s)) - fraction,
-                   lo, hi, xtol=1e-10)
+    log_t = bracketed_root(lambda s: inside + _smoothed_mass(lb, mb, jb, math.exp(s)) - fraction,
+                           lo, hi, xtol=1e-10)
     level = math.exp(log_t)
     return level, inside + _smoothed_mass(lb, mb, jb, level)
 
@@ -306,7 +294,7 @@ def _lines_level(lines: np.ndarray, mass: np.ndarray, fraction: float) -> tuple[
 def _polar_grid(state: State, fraction: float) -> tuple[float, float]:
     nr, nc = _POLAR_GRID
     r, wr = _radial_nodes(_reach_a0(state), nr // _RADIAL_ORDER, _RADIAL_ORDER)
-    c, wc = _gauss_legendre(nc)
+    c, wc = gauss_legendre(nc)
     s = np.sqrt(1.0 - c * c)
     amp = np.zeros((len(r), nc), dtype=complex)
     for term, phase in zip(state.terms, state.phase_factors()):
