@@ -54,7 +54,8 @@ def run(options: MeshOptions, args: argparse.Namespace) -> int:
         level = level_for_fraction(state, options.fraction)
         lattice = sample_for_surface(state, level, options.resolution, box_of(options, state),
                                      dtype_of(options))
-    surface = surface_at_level(lattice, level)
+    # a sampled lattice was budgeted with its surface above; a field file was not
+    surface = surface_at_level(lattice, level, memory_checked=options.field is None)
     report = mesh_job(surface, options.out, options, lattice=lattice)
     if options.report:
         write_report(options.report, report)

@@ -264,7 +264,7 @@ def _interpolated_psi(lattice: Lattice, verts: np.ndarray) -> np.ndarray:
     return re.astype(np.float64) + 1j * im.astype(np.float64)
 
 
-def surface_at_level(lattice: Lattice, level: LevelResult) -> Surface:
+def surface_at_level(lattice: Lattice, level: LevelResult, *, memory_checked: bool = False) -> Surface:
     """The closed surface |psi|^2 = level.level on `lattice`.
 
     Parameters
@@ -274,6 +274,12 @@ def surface_at_level(lattice: Lattice, level: LevelResult) -> Surface:
         come from the state itself.
     level : LevelResult
         From :func:`level_for_fraction`.
+    memory_checked : bool
+        True when this step was budgeted together with the lattice before the lattice was
+        made (:func:`~orbitalrender.lattice.memory.require_lattice_and_surface_memory`):
+        the step is then not checked again on its own, which would count the lattice, now
+        allocated, against the budget a second time and could refuse a resolution that
+        the first check offered.
 
     Returns
     -------
@@ -296,7 +302,8 @@ def surface_at_level(lattice: Lattice, level: LevelResult) -> Surface:
     if lattice.state is not None:
         warn_unresolved_nodes(lattice.state, level.fraction_requested, lattice.spacing_a0,
                               lattice.values.shape)
-    require_surface_memory(lattice.shape, lattice.values.dtype)
+    if not memory_checked:
+        require_surface_memory(lattice.shape, lattice.values.dtype)
     amplitude = math.sqrt(level.level)
     field, signed = _signed_field(lattice, amplitude)
     parts = []
@@ -441,7 +448,8 @@ def extract_surface(source: State | Lattice, fraction: float, resolution: int = 
         # both steps are refused together, before the lattice is allocated
         require_lattice_and_surface_memory(resolution, dtype)
         level = level_for_fraction(source, fraction)
-        return surface_at_level(sample_for_surface(source, level, resolution, box, dtype), level)
+        return surface_at_level(sample_for_surface(source, level, resolution, box, dtype), level,
+                                memory_checked=True)
     if isinstance(source, Lattice):
         if box is not None:
             raise ValueError("a box can only be given with a state; a lattice has its own")
