@@ -198,3 +198,47 @@ def test_sigint_or_sigterm_stops_the_workers_at_once_with_one_line(tmp_path, sig
     # surfaces, those done before the interrupt are in the cache, and no output was drawn
     assert len(list((out / ".cache" / "surface").glob("*.npz"))) < 6
     assert list(out.glob("*.png")) == []
+
+
+# one output drawn in well under a second, one that takes some seconds to draw (4000 px square)
+QUICK_THEN_LARGE = """
+[defaults]
+resolution = 40
+fraction = 0.8
+
+[[outputs]]
+name = "quick"
+kind = "figure"
+state = "1s"
+width_px = 240
+height_px = 200
+
+[[outputs]]
+name = "large"
+kind = "figure"
+state = "3dz2"
+width_px = 4000
+height_px = 4000
+"""
+
+
+@pytest.mark.parametrize("sig, line", [
+    (signal.SIGINT, "orbitalrender: interrupted"),
+    (signal.SIGTERM, "orbitalrender gallery: terminated"),
+])
+def test_workers_that_have_drawn_leave_nothing_for_the_resource_tracker_to_report(tmp_path, sig, line):
+    # a worker that has drawn a picture has started numba's parallel threads; stopped by a
+    # signal, it must leave no named semaphore, or multiprocessing's resource tracker adds
+    # "There appear to be 2 leaked semaphore objects to clean up" (two lines) after the user's line
+    proc, out = _start(tmp_path, QUICK_THEN_LARGE)
+    seen = []
+    for _ in range(10):  # four progress lines at most; a guard against reading forever
+        seen.append(proc.stderr.readline())
+        if "drawing: quick.png" in seen[-1] or not seen[-1]:
+            break
+    assert "drawing: quick.png" in seen[-1], seen
+    assert proc.poll() is None, "the large picture was drawn before the run could be interrupted"
+    proc.send_signal(sig)
+    _, rest = proc.communicate(timeout=600)
+    assert rest.strip().splitlines() == [line]
+    assert _temporaries(out) == []

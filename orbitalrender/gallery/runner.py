@@ -128,8 +128,17 @@ class _Progress:
 
 def _init_worker() -> None:
     """Headless drawing; import the drawing code once per worker, not once per task.  The
-    main process alone answers an interrupt (it stops the workers), so workers ignore SIGINT."""
+    main process alone answers an interrupt (it stops the workers), so workers ignore SIGINT.
+
+    A worker's own default start method is set to ``spawn``: numba guards the start of its
+    threading layer with a lock shared between processes whenever that method contains
+    "fork", which "forkserver" does, and that lock is a named semaphore; a worker stopped
+    by a signal leaves it behind, and multiprocessing's resource tracker then prints a
+    two-line warning about leaked semaphores after the user's one line.  A worker starts
+    no processes, and its threads are started after it was forked, so it needs no such lock.
+    """
     signal.signal(signal.SIGINT, signal.SIG_IGN)
+    multiprocessing.set_start_method("spawn", force=True)
     os.environ.setdefault("MPLBACKEND", "Agg")
     from . import produce  # noqa: F401
 
