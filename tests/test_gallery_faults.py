@@ -173,10 +173,14 @@ state = "{label}"
 """ for label in ("3dz2", "4fxyz", "3dxy", "4fz3", "3px", "4dz2"))
 
 
-@pytest.mark.parametrize("sig, status, line", [
+#: The two signals that stop a run: each with its exit status and the one line on stderr.
+STOP_SIGNALS = [
     (signal.SIGINT, 130, "orbitalrender: interrupted"),
     (signal.SIGTERM, 143, "orbitalrender gallery: terminated"),
-])
+]
+
+
+@pytest.mark.parametrize("sig, status, line", STOP_SIGNALS)
 def test_sigint_or_sigterm_stops_the_workers_at_once_with_one_line(tmp_path, sig, status, line):
     proc, out = _start(tmp_path, SLOW, "--quiet")
     workers = _wait_for_workers(proc, 2)
@@ -222,11 +226,9 @@ height_px = 4000
 """
 
 
-@pytest.mark.parametrize("sig, line", [
-    (signal.SIGINT, "orbitalrender: interrupted"),
-    (signal.SIGTERM, "orbitalrender gallery: terminated"),
-])
-def test_workers_that_have_drawn_leave_nothing_for_the_resource_tracker_to_report(tmp_path, sig, line):
+@pytest.mark.parametrize("sig, status, line", STOP_SIGNALS)
+def test_workers_that_have_drawn_leave_nothing_for_the_resource_tracker_to_report(tmp_path, sig, status,
+                                                                                  line):
     # a worker that has drawn a picture has started numba's parallel threads; stopped by a
     # signal, it must leave no named semaphore, or multiprocessing's resource tracker adds
     # "There appear to be 2 leaked semaphore objects to clean up" (two lines) after the user's line
@@ -240,5 +242,6 @@ def test_workers_that_have_drawn_leave_nothing_for_the_resource_tracker_to_repor
     assert proc.poll() is None, "the large picture was drawn before the run could be interrupted"
     proc.send_signal(sig)
     _, rest = proc.communicate(timeout=600)
+    assert proc.returncode == status
     assert rest.strip().splitlines() == [line]
     assert _temporaries(out) == []
