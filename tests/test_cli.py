@@ -102,6 +102,88 @@ def test_ctrl_c_at_any_moment_exits_130_with_one_line(delay_s, tmp_path):
     assert list(tmp_path.iterdir()) == []  # no partial or temporary file
 
 
+#: Run by the next test in a fresh interpreter: a command whose first file written starts
+#: with a stop signal (argv[1]) arriving inside a ctypes callback (where numba's compiler
+#: cache runs Python code for llvmlite), after which the work would go on for longer than
+#: the test waits.
+_SIGNAL_IN_A_CALLBACK = """
+import ctypes, os, signal, sys, time
+import orbitalrender.atomic as atomic
+from orbitalrender.cli import main
+
+signum = int(sys.argv[1])
+real_temporary = atomic._temporary
+
+def signalled_in_a_callback():
+    os.kill(os.getpid(), signum)
+    sum(range(1000))  # the handler runs here, inside the callback, which drops its exception
+
+def temporary(target):
+    ctypes.CFUNCTYPE(None)(signalled_in_a_callback)()
+    time.sleep(120)
+    return real_temporary(target)
+
+atomic._temporary = temporary
+sys.exit(main(sys.argv[2:]))
+"""
+
+_ONE_MESH = """
+[[outputs]]
+name = "m"
+kind = "mesh"
+state = "2pz"
+resolution = 24
+size_mm = 30
+"""
+
+
+@pytest.mark.parametrize("sig, status, line, argv", [
+    (signal.SIGINT, 130, "orbitalrender: interrupted",
+     ["mesh", "2pz", "--resolution", "24", "--size-mm", "30", "--out", "out/m.ply"]),
+    (signal.SIGTERM, 143, "orbitalrender gallery: terminated",
+     ["gallery", "../g.toml", "--out", "out", "--jobs", "1", "--quiet"]),
+], ids=["mesh-SIGINT", "gallery-SIGTERM"])
+def test_a_stop_signal_that_arrives_inside_a_ctypes_callback_still_ends_the_command(
+        tmp_path, sig, status, line, argv):
+    # The ignored exception of a ctypes callback made `figure` go on and exit 0 with a
+    # six-line "Exception ignored" message (one CI run of the test above, SIGINT at 0.8 s).
+    (tmp_path / "g.toml").write_text(_ONE_MESH)
+    work = tmp_path / "work"
+    (work / "out").mkdir(parents=True)
+    proc = subprocess.run([sys.executable, "-c", _SIGNAL_IN_A_CALLBACK, str(int(sig)), *argv],
+                          env=_ENV, cwd=work, capture_output=True, text=True, timeout=60)
+    assert proc.returncode == status, proc.stderr
+    assert proc.stderr.strip() == line, proc.stderr
+    left = [p.relative_to(work).as_posix() for p in work.rglob("*") if p.is_file()]
+    assert not [name for name in left if ".part" in name or name.startswith("out/m")], left
+
+
+def test_a_ctrl_c_lost_for_good_still_keeps_no_output(monkeypatch, tmp_path, capsys):
+    # the interrupt is dropped in a ctypes callback and (here) never sent again: the work
+    # reaches its end, and the command still ends as interrupted, with no file
+    import ctypes
+
+    import orbitalrender.atomic as atomic
+    import orbitalrender.cli as cli
+
+    resent = []
+    monkeypatch.setattr(cli, "_start_signalling_again", resent.append)
+    real_temporary = atomic._temporary
+
+    def temporary(target):
+        ctypes.CFUNCTYPE(None)(lambda: cli._raise_interrupt(signal.SIGINT, None))()
+        return real_temporary(target)
+
+    monkeypatch.setattr(atomic, "_temporary", temporary)
+    out = tmp_path / "r.png"
+    callers_hook = sys.unraisablehook
+    assert main(["radial", "1s", "--out", str(out)]) == 130
+    assert capsys.readouterr().err.strip() == "orbitalrender: interrupted"
+    assert resent == [signal.SIGINT]
+    assert list(tmp_path.iterdir()) == []
+    assert sys.unraisablehook is callers_hook  # put back
+
+
 def test_interrupt_during_the_work_is_status_130(monkeypatch, capsys):
     from orbitalrender.jobs import describe
 

@@ -150,6 +150,66 @@ def _raise_interrupt(signum, frame):
     raise KeyboardInterrupt
 
 
+def _keep_interrupt(unraisable) -> None:
+    """``sys.unraisablehook`` during the work: a stop signal that Python could only report.
+
+    SIGINT's handler raises KeyboardInterrupt (the gallery's SIGTERM handler its own
+    exception, whose class names the signal in ``stop_signal``) in whatever Python code the
+    main thread runs.  In a ctypes callback (numba's compiler cache calls one from llvmlite
+    while it loads or saves a function) or a ``__del__`` that exception is printed as
+    "Exception ignored" and dropped: the command would go on and exit 0.  The signal is
+    sent again, by a helper thread, once the main thread has left this hook; other
+    unraisable exceptions go to the default hook.
+    """
+    signum = _stop_signal(unraisable.exc_type)
+    if signum is None:
+        sys.__unraisablehook__(unraisable)
+        return
+    while True:
+        try:
+            _start_signalling_again(signum)
+            return
+        except BaseException as exc:  # the signal came again already, so it was dropped here too
+            if _stop_signal(type(exc)) is None:
+                raise
+
+
+def _stop_signal(exc_type: type[BaseException]) -> int | None:
+    """The signal whose handler raised an exception of `exc_type`, if it is a stop signal."""
+    if issubclass(exc_type, KeyboardInterrupt):
+        return signal.SIGINT
+    return getattr(exc_type, "stop_signal", None)
+
+
+def _start_signalling_again(signum: int) -> None:
+    import threading
+
+    threading.Thread(target=_signal_main_again, args=(threading.main_thread().ident, signum),
+                     daemon=True).start()
+
+
+#: How often the helper thread of :func:`_keep_interrupt` looks whether the main thread has
+#: left the hook (s); the signal is sent again within about this time.
+_RESEND_POLL_S = 0.005
+
+
+def _signal_main_again(main_ident: int, signum: int) -> None:
+    """Send `signum` again to the main thread as soon as it is out of the hook."""
+    import time
+
+    hook = _keep_interrupt.__code__
+    while True:
+        time.sleep(_RESEND_POLL_S)
+        frame = sys._current_frames().get(main_ident)
+        if frame is None:
+            return  # the main thread has ended
+        while frame is not None and frame.f_code is not hook:
+            frame = frame.f_back
+        if frame is None:
+            signal.pthread_kill(main_ident, signum)  # to the main thread: also ends a sleep
+            return
+
+
 def _stop_interrupted() -> int:
     _on_sigint(quit_on_interrupt)
     print("orbitalrender: interrupted", file=sys.stderr)
@@ -216,10 +276,18 @@ def _run(args) -> int:
     with warnings.catch_warnings():
         warnings.showwarning = _one_line_warning(args.command)
         if args.command in _SEPARATE_OUTPUTS:
-            return int(args.run(args) or 0)
+            return _unless_interrupted(int(args.run(args) or 0))
         check_distinct_outputs([getattr(args, "out", None), getattr(args, "report", None)])
         with output_set():
-            return int(args.run(args) or 0)
+            return _unless_interrupted(int(args.run(args) or 0))
+
+
+def _unless_interrupted(status: int) -> int:
+    """`status`, or KeyboardInterrupt if SIGINT came during the work but its exception was
+    dropped where it was raised (see :func:`_keep_interrupt`): the outputs are not kept."""
+    if _interrupted:
+        raise KeyboardInterrupt
+    return status
 
 
 def _one_line_warning(command: str):
@@ -238,10 +306,12 @@ def _main(argv: list[str]) -> int:
     parser = build_parser()
     args = parser.parse_args(protect_leading_minus(parser, argv))
     user_errors = _user_errors()
+    unraisable_hook = sys.unraisablehook
     try:
         for module in getattr(args, "preload", ()):  # Ctrl-C here still quits at once (see add_command)
             importlib.import_module(module)
         _on_sigint(_raise_interrupt)  # the work: files in progress get removed
+        sys.unraisablehook = _keep_interrupt
         status = _run(args)
         sys.stdout.flush()  # inside the try, so a reader that went away is handled below
         return status
@@ -258,6 +328,7 @@ def _main(argv: list[str]) -> int:
         return _report(exc, args, user_errors)
     finally:
         _on_sigint(quit_on_interrupt)
+        sys.unraisablehook = unraisable_hook
 
 
 def _report(exc: Exception, args, user_errors) -> int:

@@ -41,6 +41,9 @@ class _Terminated(BaseException):
     """SIGTERM arrived: unwinds like an interrupt, so the run stops its workers and removes
     their temporary files (a BaseException, so no ``except Exception`` swallows it)."""
 
+    #: the signal, sent again if the exception is dropped (see ``cli._keep_interrupt``)
+    stop_signal = signal.SIGTERM
+
 
 def _terminate(signum, frame) -> None:
     raise _Terminated

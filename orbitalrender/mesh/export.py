@@ -328,6 +328,10 @@ def surface_report(surface: Surface, factor: float, unit: str, size_mm: float | 
     if written is None:
         summary = mesh_summary(figures, factor, len(surface.vertices_a0), len(surface.faces))
         extent_units = extent_a0 * factor
+        if unit == "mm" and size_mm is not None and extent_a0.max() > 0:
+            # the same to a rounding, with the largest side exactly the size asked for
+            # (largest * (size / largest) can be one unit in the last place off)
+            extent_units = extent_a0 / extent_a0.max() * float(size_mm)
     else:
         model = mesh_topology(np.asarray(written.vertices) / factor, written.faces)
         summary = mesh_summary(model, factor, len(written.vertices), len(written.faces))

@@ -124,9 +124,15 @@ def _radial_nodes(r_max_a0: float, panels: int, order: int) -> tuple[np.ndarray,
 
 
 def _reach_a0(state: State) -> float:
-    """Radius (a0) about its centre beyond which every term has less than _TAIL left."""
-    return max(radius_holding(t.n, t.l, 1.0 - _TAIL, state.Z, state.reduced_mass_ratio)
-               for t in state.terms)
+    """Radius (a0) about its centre beyond which every term has less than _TAIL left.
+
+    Found for Z = 1 and scaled by 1 / (Z mu): the root of P(R) = 1 - _TAIL is fixed only to
+    about 1e-5 relative (P is that flat there), and a reach found for each Z apart moved
+    the quadrature nodes, and with them the level, by a few 1e-6 between Z = 1 and Z = 2
+    instead of scaling it as psi_Z(r) = Z^{3/2} psi_1(Z r) does.
+    """
+    return max(radius_holding(t.n, t.l, 1.0 - _TAIL) for t in state.terms) \
+        / (state.Z * state.reduced_mass_ratio)
 
 
 def _centred_cumulative(mass_sorted: np.ndarray, mass_above: float = 0.0) -> np.ndarray:
