@@ -107,7 +107,7 @@ def test_ctrl_c_at_any_moment_exits_130_with_one_line(delay_s, tmp_path):
 #: cache runs Python code for llvmlite), after which the work would go on for longer than
 #: the test waits.
 _SIGNAL_IN_A_CALLBACK = """
-import ctypes, os, signal, sys, time
+import ctypes, signal, sys, time
 import orbitalrender.atomic as atomic
 from orbitalrender.cli import main
 
@@ -115,8 +115,10 @@ signum = int(sys.argv[1])
 real_temporary = atomic._temporary
 
 def signalled_in_a_callback():
-    os.kill(os.getpid(), signum)
-    sum(range(1000))  # the handler runs here, inside the callback, which drops its exception
+    # to this thread, so the handler runs before raise_signal returns, inside the callback,
+    # which drops its exception (os.kill can reach one of numba's threads instead, and
+    # the handler then waits for the main thread's next bytecode, after the sleep below)
+    signal.raise_signal(signum)
 
 def temporary(target):
     ctypes.CFUNCTYPE(None)(signalled_in_a_callback)()
