@@ -18,6 +18,7 @@ loaded).
 from __future__ import annotations
 
 import os
+import signal
 
 import pytest
 from hypothesis import HealthCheck, settings
@@ -29,6 +30,13 @@ _COMMON = dict(deadline=None, database=None, suppress_health_check=[HealthCheck.
 settings.register_profile("ci", derandomize=True, max_examples=60, **_COMMON)
 settings.register_profile("hunt", derandomize=False, max_examples=1000, **_COMMON)
 settings.load_profile(os.environ.get("ORBITALRENDER_HYPOTHESIS_PROFILE", "ci"))
+
+# The tests send SIGINT to commands as a terminal's Ctrl-C reaches a job in the foreground.
+# A suite started in the background of a script (``pytest &``) inherits SIGINT ignored, and
+# every command it starts would keep ignoring it (as it should: see orbitalrender.__main__);
+# the suite's own default handler makes its children start with the default again.
+if signal.getsignal(signal.SIGINT) is signal.SIG_IGN:
+    signal.signal(signal.SIGINT, signal.default_int_handler)
 
 
 # -- shared fixtures: small analytic surfaces used by the render and figure tests ---------------

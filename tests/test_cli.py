@@ -102,6 +102,27 @@ def test_ctrl_c_at_any_moment_exits_130_with_one_line(delay_s, tmp_path):
     assert list(tmp_path.iterdir()) == []  # no partial or temporary file
 
 
+@pytest.mark.parametrize("entry", [["-m", "orbitalrender"], ["-c", "import sys; from orbitalrender.cli "
+                                                         "import main; sys.exit(main())"]],
+                         ids=["python -m", "installed command"])
+def test_a_command_that_inherits_sigint_ignored_keeps_ignoring_it(entry, tmp_path):
+    # `orbitalrender ... &` in a script: the shell starts the job with SIGINT ignored (POSIX,
+    # Shell Command Language 2.11), so that the terminal's Ctrl-C leaves it running
+    out = tmp_path / "r.png"
+    proc = subprocess.Popen([sys.executable, *entry, "radial", "2s", "--out", str(out)], env=_ENV,
+                            cwd=tmp_path, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
+                            preexec_fn=lambda: signal.signal(signal.SIGINT, signal.SIG_IGN))
+    sent = 0
+    while proc.poll() is None:  # through the start, the parsing and the work
+        proc.send_signal(signal.SIGINT)
+        sent += 1
+        time.sleep(0.05)
+    _, err = proc.communicate(timeout=120)
+    assert sent > 1
+    assert proc.returncode == 0, err
+    assert out.is_file()
+
+
 #: Run by the next test in a fresh interpreter: a command whose first file written starts
 #: with a stop signal (argv[1]) arriving inside a ctypes callback (where numba's compiler
 #: cache runs Python code for llvmlite), after which the work would go on for longer than

@@ -218,7 +218,8 @@ def _stop_interrupted() -> int:
 
 def _on_sigint(handler):
     """Install `handler` for SIGINT; returns the previous one (None: left alone, because
-    SIGINT is ignored, as for a job started with nohup, or this is not the main thread)."""
+    SIGINT is ignored, as the shell makes it for a job started in the background of a
+    script, or this is not the main thread)."""
     try:
         if signal.getsignal(signal.SIGINT) is signal.SIG_IGN:
             return None
