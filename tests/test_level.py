@@ -169,10 +169,12 @@ def _phi_reference(n: int, k: float, a, theta_of_top: float):
             q = least / a(theta)
             if q >= 1.0:
                 return 0.0
-            b = lambda phi: k * a(theta) * math.cos(phi) ** 2  # noqa: E731
-            return math.sin(theta) * quad(lambda phi: b(phi) * radial_share(t / b(phi)), 0.0,
-                                          math.acos(math.sqrt(q)), epsabs=1e-14, epsrel=1e-12,
-                                          limit=200)[0]
+            def mass(phi: float) -> float:  # B times the radial share along (theta, phi)
+                b = k * a(theta) * math.cos(phi) ** 2
+                return b * radial_share(t / b)
+
+            return math.sin(theta) * quad(mass, 0.0, math.acos(math.sqrt(q)), epsabs=1e-14,
+                                          epsrel=1e-12, limit=200)[0]
 
         lo = brentq(lambda th: a(th) - least, 1e-12, theta_of_top)
         hi = math.pi / 2 if theta_of_top == math.pi / 2 else \

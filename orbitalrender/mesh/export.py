@@ -328,7 +328,7 @@ def surface_report(surface: Surface, factor: float, unit: str, size_mm: float | 
     if written is None:
         summary = mesh_summary(figures, factor, len(surface.vertices_a0), len(surface.faces))
         extent_units = extent_a0 * factor
-        if unit == "mm" and size_mm is not None and extent_a0.max() > 0:
+        if size_mm is not None:  # factor = size_mm / largest side (length_scale; never 0)
             # the same to a rounding, with the largest side exactly the size asked for
             # (largest * (size / largest) can be one unit in the last place off)
             extent_units = extent_a0 / extent_a0.max() * float(size_mm)
